@@ -1,0 +1,1 @@
+"""Prefect flows and tasks: thin wrappers around valvol functions, no formulas."""

@@ -1,0 +1,431 @@
+"""Seeded generator of the demo economy XQ, the invented Republic of Quillon.
+
+The accounts are built bottom-up from invented elementary products: each
+expenditure component is a small basket of products with simulated quarterly
+quantities and prices. Values at current prices, at the previous year's
+average prices and chain-linked volumes (annual overlap, reference year 2020)
+all follow from the same quantities and prices, so the published series are
+internally consistent. The economy, its currency (the tessel) and every number
+are invented.
+
+Run ``python sample_accounts/generate.py`` to rewrite ``accounts.csv`` next to
+this file; the output is byte-identical on every run. Importing the module
+has no side effects. The module is standalone (numpy and pandas only) so that
+it documents the construction on its own.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+SEED = 20_120_331
+ECONOMY = "XQ"
+CURRENCY = "tessel"
+UNIT = "tessel million"
+ADJUSTMENT = "S"
+FIRST_SIMULATED_YEAR = 2011  # simulated only: the previous year of 2012, not published
+FIRST_YEAR = 2012
+LAST_YEAR = 2025
+REFERENCE_YEAR = 2020
+COLUMNS = ["economy", "period", "item", "price_basis", "value", "adjustment", "unit"]
+PRICE_BASES = ["current", "previous_year", "chain_linked"]
+OUTPUT = Path(__file__).resolve().parent / "accounts.csv"
+
+#: Published items in output order (components before the aggregates using them).
+ITEMS = ["P31_S14", "P3_S15", "P3_S13", "P3", "P51G", "P52", "P53", "P5", "P6", "P7", "YA1", "B1GQ"]
+COMPONENTS = ["P31_S14", "P3_S15", "P3_S13", "P51G", "P52", "P53", "P6", "P7", "YA1"]
+#: Signed aggregates, as in ``valvol.toml``; listed bottom-up.
+AGGREGATES = {
+    "P3": {"P31_S14": 1, "P3_S15": 1, "P3_S13": 1},
+    "P5": {"P51G": 1, "P52": 1, "P53": 1},
+    "B1GQ": {"P3": 1, "P5": 1, "P6": 1, "P7": -1, "YA1": 1},
+}
+#: Items that are always positive and get a published chain-linked volume.
+CHAINED = ["P31_S14", "P3_S15", "P3_S13", "P3", "P51G", "P5", "P6", "P7", "B1GQ"]
+
+N_YEARS = LAST_YEAR - FIRST_SIMULATED_YEAR + 1
+N_QUARTERS = 4 * N_YEARS
+
+#: Price drivers (log levels) at knots; linear in between. Columns: knot period, then
+#: energy (world energy price), goods (world goods prices), domestic (wage and
+#: services pressure), corvite (the island's export ore).
+PRICE_KNOTS = pd.DataFrame(
+    [
+        ("2010-Q4", 0.00, 0.000, 0.000, 0.00),
+        ("2011-Q4", 0.05, 0.005, 0.000, 0.08),
+        ("2012-Q4", 0.08, 0.005, 0.000, 0.02),
+        ("2013-Q4", 0.06, 0.000, 0.000, -0.05),
+        ("2014-Q4", -0.15, -0.005, 0.000, -0.10),
+        ("2015-Q4", -0.38, -0.015, -0.003, -0.20),
+        ("2016-Q4", -0.35, -0.015, -0.005, -0.15),
+        ("2017-Q4", -0.25, -0.010, -0.003, -0.05),
+        ("2018-Q4", -0.18, -0.005, 0.000, 0.00),
+        ("2019-Q4", -0.20, -0.005, 0.000, -0.02),
+        ("2020-Q2", -0.55, -0.010, -0.003, -0.15),
+        ("2020-Q4", -0.42, -0.005, -0.003, -0.08),
+        ("2021-Q2", -0.22, 0.010, 0.000, 0.02),
+        ("2021-Q4", -0.02, 0.035, 0.003, 0.06),
+        ("2022-Q2", 0.38, 0.080, 0.012, 0.08),
+        ("2022-Q4", 0.50, 0.110, 0.028, 0.06),
+        ("2023-Q2", 0.22, 0.115, 0.045, 0.02),
+        ("2023-Q4", 0.18, 0.115, 0.055, 0.05),
+        ("2024-Q2", 0.17, 0.115, 0.060, 0.30),
+        ("2024-Q4", 0.16, 0.115, 0.063, 0.48),
+        ("2025-Q2", 0.15, 0.115, 0.066, 0.60),
+        ("2025-Q4", 0.14, 0.115, 0.068, 0.68),
+    ],
+    columns=["knot", "energy", "goods", "domestic", "corvite"],
+)
+
+#: Volume driver (log level): the 2020-2021 lockdown dip and recovery.
+VOLUME_KNOTS = pd.DataFrame(
+    [
+        ("2010-Q4", 0.000),
+        ("2019-Q4", 0.000),
+        ("2020-Q1", -0.030),
+        ("2020-Q2", -0.140),
+        ("2020-Q3", -0.060),
+        ("2020-Q4", -0.045),
+        ("2021-Q1", -0.035),
+        ("2021-Q2", -0.020),
+        ("2021-Q3", -0.008),
+        ("2021-Q4", 0.000),
+        ("2025-Q4", 0.000),
+    ],
+    columns=["knot", "lockdown"],
+)
+
+#: Elementary products. value0: quarterly value in 2011-Q1 (tessel million, prices = 1);
+#: gq, gp: trend log growth a year of quantity and price; sq, sp: quarterly noise (log);
+#: lock: loading on the lockdown driver; energy .. corvite: loadings on the price drivers.
+# fmt: off
+PRODUCTS = pd.DataFrame(
+    [
+        ("P31_S14", "food", 4400, 0.012, 0.020, 0.003, 0.003, 0.10, 0.10, 0.60, 0.2, 0.0),
+        ("P31_S14", "household energy", 2200, 0.005, 0.015, 0.004, 0.004, 0.60, 0.60, 0.00, 0.0, 0.0),
+        ("P31_S14", "imported manufactures", 5500, 0.030, 0.012, 0.004, 0.003, 0.80, 0.00, 0.60, 0.0, 0.0),
+        ("P31_S14", "services", 9400, 0.028, 0.022, 0.003, 0.002, 1.30, 0.02, 0.00, 1.0, 0.0),
+        ("P31_S14", "housing", 6000, 0.020, 0.022, 0.001, 0.001, 0.05, 0.03, 0.00, 0.8, 0.0),
+        ("P3_S15", "community services", 560, 0.020, 0.022, 0.004, 0.002, 0.80, 0.00, 0.00, 1.0, 0.0),
+        ("P3_S15", "community goods", 140, 0.015, 0.010, 0.005, 0.003, 0.40, 0.10, 0.50, 0.0, 0.0),
+        ("P3_S13", "public services", 6400, 0.018, 0.022, 0.002, 0.002, -0.10, 0.00, 0.00, 1.0, 0.0),
+        ("P3_S13", "purchased goods", 2800, 0.020, 0.018, 0.003, 0.003, 0.00, 0.10, 0.30, 0.3, 0.0),
+        ("P51G", "construction", 5600, 0.020, 0.022, 0.005, 0.003, 1.00, 0.05, 0.20, 0.8, 0.0),
+        ("P51G", "domestic equipment", 1500, 0.030, 0.010, 0.006, 0.003, 1.20, 0.00, 0.40, 0.3, 0.0),
+        ("P51G", "imported equipment", 3000, 0.030, 0.010, 0.006, 0.003, 1.20, 0.00, 0.70, 0.0, 0.0),
+        ("P6", "corvite ore", 7000, 0.020, 0.010, 0.006, 0.006, 0.50, 0.00, 0.00, 0.0, 1.0),
+        ("P6", "manufactures", 9500, 0.028, 0.010, 0.004, 0.003, 0.90, 0.04, 0.35, 0.2, 0.0),
+        ("P6", "tourism services", 7500, 0.032, 0.022, 0.005, 0.003, 4.50, 0.05, 0.00, 1.0, 0.0),
+        ("P7", "imported energy", 3800, 0.005, 0.010, 0.005, 0.008, 0.70, 1.00, 0.00, 0.0, 0.0),
+        ("P7", "imported manufactures", 14000, 0.035, 0.012, 0.004, 0.003, 1.00, 0.00, 0.75, 0.0, 0.0),
+        ("P7", "imported food", 5700, 0.015, 0.022, 0.003, 0.003, 0.30, 0.12, 0.80, 0.0, 0.0),
+    ],
+    columns=[
+        "item", "product", "value0", "gq", "gp", "sq", "sp", "lock", "energy", "goods", "domestic", "corvite",
+    ],
+)
+# fmt: on
+
+#: Price reference of the sign-changing items: P52 (stocks of manufactured goods) is valued
+#: at the price of imported manufactures, P53 (worked corvite stones) at the ore price.
+SIGN_CHANGING_PRICE = {"P52": ("P7", "imported manufactures"), "P53": ("P6", "corvite ore")}
+
+
+def _periods() -> pd.DataFrame:
+    """Year, quarter and label of every simulated quarter, 2011-Q1 .. 2025-Q4."""
+    t = np.arange(N_QUARTERS)
+    year = FIRST_SIMULATED_YEAR + t // 4
+    quarter = t % 4 + 1
+    label = pd.Series(year).astype(str) + "-Q" + pd.Series(quarter).astype(str)
+    return pd.DataFrame({"t": t, "year": year, "quarter": quarter, "period": label})
+
+
+def _quarter_index(labels: pd.Series) -> np.ndarray:
+    """Quarter index (0 = 2011-Q1) of ``YYYY-Qn`` labels."""
+    parts = labels.str.extract(r"^(\d{4})-Q([1-4])$").astype("int64")
+    return ((parts[0] - FIRST_SIMULATED_YEAR) * 4 + parts[1] - 1).to_numpy()
+
+
+def _interpolate(knots: pd.DataFrame) -> np.ndarray:
+    """Piecewise-linear paths between knots, shape (drivers, quarters)."""
+    x = _quarter_index(knots["knot"]).astype(float)
+    values = knots.drop(columns="knot").to_numpy(dtype=float).T
+    t = np.arange(N_QUARTERS, dtype=float)
+    right = np.clip(np.searchsorted(x, t, side="right"), 1, len(x) - 1)
+    left = right - 1
+    w = (t - x[left]) / (x[right] - x[left])
+    return values[:, left] * (1.0 - w) + values[:, right] * w
+
+
+def _smooth_noise(rng: np.random.Generator, sd: np.ndarray) -> np.ndarray:
+    """Random walk (starting at zero) plus white noise per row, shape (len(sd), quarters)."""
+    steps = rng.normal(0.0, 1.0, size=(len(sd), N_QUARTERS)) * sd[:, None]
+    steps[:, 0] = 0.0
+    level = rng.normal(0.0, 1.0, size=(len(sd), N_QUARTERS)) * (0.7 * sd[:, None])
+    return np.cumsum(steps, axis=1) + level
+
+
+def simulate_products() -> pd.DataFrame:
+    """Quarterly prices and quantities of the elementary products, 2011-Q1 .. 2025-Q4.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Long table with columns ``item, product, year, quarter, period, price, quantity``;
+        quantities are in tessel million at 2011-Q1 prices (price about 1 then).
+
+    Notes
+    -----
+    log q_j(t) = log q_j(0) + g^q_j t/4 + lock_j·L(t) + noise, and
+    log p_j(t) = g^p_j t/4 + Σ_d β_jd·F_d(t) + noise, with F_d the price drivers of
+    ``PRICE_KNOTS`` (energy, goods, domestic, corvite), L the lockdown driver and noise a
+    seeded random walk plus white noise. The data are seasonally adjusted from the start.
+    """
+    rng = np.random.default_rng(SEED)
+    per = _periods()
+    t = per["t"].to_numpy(dtype=float)
+    drivers = _interpolate(PRICE_KNOTS)
+    lockdown = _interpolate(VOLUME_KNOTS)[0]
+    loadings = PRODUCTS[["energy", "goods", "domestic", "corvite"]].to_numpy(dtype=float)
+    gq, gp = PRODUCTS["gq"].to_numpy(), PRODUCTS["gp"].to_numpy()
+    log_q = (
+        np.log(PRODUCTS["value0"].to_numpy(dtype=float))[:, None]
+        + gq[:, None] * t[None, :] / 4.0
+        + PRODUCTS["lock"].to_numpy()[:, None] * lockdown[None, :]
+        + _smooth_noise(rng, PRODUCTS["sq"].to_numpy())
+    )
+    log_p = (
+        gp[:, None] * t[None, :] / 4.0 + loadings @ drivers + _smooth_noise(rng, PRODUCTS["sp"].to_numpy())
+    )
+    n_prod = len(PRODUCTS)
+    out = pd.DataFrame(
+        {
+            "item": np.repeat(PRODUCTS["item"].to_numpy(), N_QUARTERS),
+            "product": np.repeat(PRODUCTS["product"].to_numpy(), N_QUARTERS),
+            "year": np.tile(per["year"].to_numpy(), n_prod),
+            "quarter": np.tile(per["quarter"].to_numpy(), n_prod),
+            "period": np.tile(per["period"].to_numpy(), n_prod),
+            "price": np.exp(log_p).ravel(),
+            "quantity": np.exp(log_q).ravel(),
+        }
+    )
+    return out
+
+
+def _unit_values(products: pd.DataFrame) -> pd.DataFrame:
+    """Value-weighted annual average price of each product: annual value / annual quantity.
+
+    Notes
+    -----
+    P̄_{j,y} = Σ_s p_j(s,y)·q_j(s,y) / Σ_s q_j(s,y); an unweighted mean of the quarterly
+    prices would make the quarters of y valued at P̄_{j,y} miss the annual value
+    (METHODS.md section 2.2, pitfalls).
+
+    References
+    ----------
+    IMF, *Quarterly National Accounts Manual*, 2017 Edition, ch.8, para. 8.17, eq. (2).
+    """
+    annual = (
+        products.assign(value=products["price"] * products["quantity"])
+        .groupby(["item", "product", "year"], sort=False)[["value", "quantity"]]
+        .sum()
+        .reset_index()
+    )
+    annual["unit_value"] = annual["value"] / annual["quantity"]
+    return annual[["item", "product", "year", "unit_value"]]
+
+
+def _with_previous_year_prices(products: pd.DataFrame) -> pd.DataFrame:
+    """Add the previous year's unit value ``pbar_prev`` (NaN in 2011) to each product quarter."""
+    uv = (
+        _unit_values(products)
+        .assign(year=lambda d: d["year"] + 1)
+        .rename(columns={"unit_value": "pbar_prev"})
+    )
+    return products.merge(uv, on=["item", "product", "year"], how="left", validate="many_to_one")
+
+
+def _unrounded_components(products: pd.DataFrame) -> pd.DataFrame:
+    """Unrounded quarterly current (``c``) and previous-year-price (``k``) values per component.
+
+    Notes
+    -----
+    Basket items: c(s,y) = Σ_j p_j(s,y)·q_j(s,y), k(s,y) = Σ_j P̄_{j,y−1}·q_j(s,y).
+    Sign-changing items, given as shares of the remaining expenditure X (current prices):
+    P52 and P53 are valued with a reference product's price relative,
+    k = c·P̄_{ref,y−1}/p_ref(s,y); YA1 is deflated by the quarter's Paasche price relative of
+    X, k = c·k_X(s,y)/c_X(s,y). In 2011 (simulated only) k is not defined.
+    """
+    rng = np.random.default_rng(SEED + 1)
+    prod = _with_previous_year_prices(products)
+    prod["c"] = prod["price"] * prod["quantity"]
+    prod["k"] = prod["pbar_prev"] * prod["quantity"]
+    basket = prod.groupby(["item", "year", "quarter", "period"], sort=False)[["c", "k"]].sum(min_count=1)
+    basket = basket.reset_index()
+    sign = basket["item"].map({"P7": -1.0}).fillna(1.0)
+    core = (
+        basket.assign(c=basket["c"] * sign, k=basket["k"] * sign)
+        .groupby(["year", "quarter", "period"], sort=False)[["c", "k"]]
+        .sum(min_count=1)
+        .reset_index()
+    )
+    t = np.arange(N_QUARTERS, dtype=float)
+    ar = np.cumsum(rng.normal(0.0, 1.0, size=(2, N_QUARTERS)), axis=1) * 0.25
+    share = {
+        "P52": 0.0040 * np.sin(2 * np.pi * t / 15.0 + 0.6) + 0.0012 * (ar[0] - ar[0].mean()) / ar[0].std(),
+        "P53": 0.0005 * np.sin(2 * np.pi * t / 9.0 + 2.0) + 0.0002 * (ar[1] - ar[1].mean()) / ar[1].std(),
+        "YA1": np.clip(rng.normal(0.0, 0.0009, size=N_QUARTERS), -0.0028, 0.0028),
+    }
+    ref_keys = pd.DataFrame(
+        [(code, ref_item, ref_product) for code, (ref_item, ref_product) in SIGN_CHANGING_PRICE.items()],
+        columns=["code", "item", "product"],
+    )
+    ref = prod.merge(ref_keys, on=["item", "product"])[["code", "year", "quarter", "price", "pbar_prev"]]
+    stocks = pd.DataFrame(
+        {
+            "item": np.repeat(list(SIGN_CHANGING_PRICE), N_QUARTERS),
+            "year": np.tile(core["year"].to_numpy(), len(SIGN_CHANGING_PRICE)),
+            "quarter": np.tile(core["quarter"].to_numpy(), len(SIGN_CHANGING_PRICE)),
+            "period": np.tile(core["period"].to_numpy(), len(SIGN_CHANGING_PRICE)),
+            "c": np.concatenate([share[code] for code in SIGN_CHANGING_PRICE])
+            * np.tile(core["c"].to_numpy(), len(SIGN_CHANGING_PRICE)),
+        }
+    )
+    stocks = stocks.merge(
+        ref.rename(columns={"code": "item"}),
+        on=["item", "year", "quarter"],
+        how="left",
+        validate="one_to_one",
+    )
+    stocks["k"] = stocks["c"] * stocks["pbar_prev"] / stocks["price"]
+    ya1 = core[["year", "quarter", "period"]].assign(
+        item="YA1", c=share["YA1"] * core["c"], k=share["YA1"] * core["k"]
+    )
+    cols = ["item", "year", "quarter", "period", "c", "k"]
+    out = pd.concat([basket[cols], stocks[cols], ya1[cols]], ignore_index=True)
+    return out
+
+
+def _aggregate(frame: pd.DataFrame, columns: list[str]) -> pd.DataFrame:
+    """Append the aggregates of ``AGGREGATES`` as signed sums of their components."""
+    for agg, signs in AGGREGATES.items():
+        part = frame[frame["item"].isin(list(signs))]
+        sign = part["item"].map(signs).to_numpy(dtype=float)
+        summed = (
+            part[["year", "quarter", "period"]]
+            .assign(**{col: part[col].to_numpy() * sign for col in columns})
+            .groupby(["year", "quarter", "period"], sort=False)[columns]
+            .sum(min_count=1)
+            .reset_index()
+            .assign(item=agg)
+        )
+        frame = pd.concat([frame, summed], ignore_index=True)
+    return frame
+
+
+def unrounded_levels() -> pd.DataFrame:
+    """Unrounded quarterly values of every item, 2011-Q1 .. 2025-Q4 (2011 simulated only).
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns ``item, year, quarter, period, c, k``: ``c`` at current prices, ``k`` at the
+        previous year's average prices (NaN in 2011); aggregates as signed sums of the
+        unrounded components.
+    """
+    return _aggregate(_unrounded_components(simulate_products()), ["c", "k"])
+
+
+def _chain_link(levels: pd.DataFrame) -> pd.DataFrame:
+    """Quarterly chain-linked volumes by annual overlap, reference year ``REFERENCE_YEAR``.
+
+    Notes
+    -----
+    Annual links L_y = K_y / C_{y−1}; CLV_r = C_r, CLV_y = CLV_{y−1}·L_y forward and
+    CLV_{y−1} = CLV_y / L_y backward; quarters CLV(s,y) = k(s,y)·CLV_{y−1}/C_{y−1}, so the
+    four quarters of y sum to CLV_y. 2011 (simulated) serves as the previous year of 2012.
+
+    References
+    ----------
+    ABS 5216.0 (2020-21), ch.6 Annex, para. 6A.2, eq. (1); IMF, *Quarterly National Accounts
+    Manual*, 2017 Edition, section 8.4.D (annual overlap); METHODS.md sections 2.1-2.2.
+    """
+    chained = levels[levels["item"].isin(CHAINED)]
+    annual = chained.groupby(["item", "year"])[["c", "k"]].sum(min_count=4).reset_index()
+    annual = annual.sort_values(["item", "year"], ignore_index=True)
+    prev_c = annual.groupby("item")["c"].shift(1)
+    link = (annual["k"] / prev_c).fillna(1.0)  # 1 in 2011: the base of the cumulative product
+    annual["cum"] = link.groupby(annual["item"]).cumprod()
+    ref = annual[annual["year"] == REFERENCE_YEAR].set_index("item")
+    scale = annual["item"].map(ref["c"] / ref["cum"])
+    annual["clv"] = annual["cum"] * scale
+    annual["ratio_next"] = annual["clv"] / annual["c"]  # CLV_{y-1}/C_{y-1}, used in year y
+    step = annual[["item", "year", "ratio_next"]].assign(year=lambda d: d["year"] + 1)
+    out = chained.merge(step, on=["item", "year"], how="inner", validate="many_to_one")
+    out["clv"] = out["k"] * out["ratio_next"]
+    return out[["item", "year", "quarter", "period", "clv"]]
+
+
+def _round(x: pd.Series | np.ndarray) -> np.ndarray:
+    """Round to one decimal; ``+ 0.0`` turns negative zeros into zeros."""
+    return np.round(np.asarray(x, dtype=float), 1) + 0.0
+
+
+def build_accounts() -> pd.DataFrame:
+    """The demo accounts of XQ in the input contract, 2012-Q1 .. 2025-Q4.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns ``economy, period, item, price_basis, value, adjustment, unit``; every row
+        seasonally adjusted (``S``), values in tessel million rounded to one decimal.
+
+    Notes
+    -----
+    Components are rounded first; aggregates at current and previous-year prices are the
+    signed sums of the rounded components (P3 = P31_S14 + P3_S15 + P3_S13, P5 = P51G + P52 +
+    P53, B1GQ = P3 + P5 + P6 − P7 + YA1), so the identities hold to floating-point
+    precision. Chain-linked volumes are computed from the unrounded values, each aggregate
+    from its own sums, then rounded; none is published for P52, P53 or YA1.
+    """
+    levels = unrounded_levels()
+    components = levels[levels["item"].isin(COMPONENTS)]
+    clv = _chain_link(levels)
+    rounded = components.assign(c=_round(components["c"]), k=_round(components["k"]))
+    rounded = _aggregate(rounded, ["c", "k"])
+    rounded = rounded.assign(c=_round(rounded["c"]), k=_round(rounded["k"]))
+    long = pd.concat(
+        [
+            rounded[["item", "year", "period", "c"]]
+            .rename(columns={"c": "value"})
+            .assign(price_basis="current"),
+            rounded[["item", "year", "period", "k"]]
+            .rename(columns={"k": "value"})
+            .assign(price_basis="previous_year"),
+            clv[["item", "year", "period"]].assign(value=_round(clv["clv"]), price_basis="chain_linked"),
+        ],
+        ignore_index=True,
+    )
+    long = long[long["year"] >= FIRST_YEAR]
+    long = long.assign(
+        item_rank=long["item"].map({item: i for i, item in enumerate(ITEMS)}),
+        basis_rank=long["price_basis"].map({basis: i for i, basis in enumerate(PRICE_BASES)}),
+    ).sort_values(["item_rank", "basis_rank", "period"], kind="mergesort", ignore_index=True)
+    return long.assign(economy=ECONOMY, adjustment=ADJUSTMENT, unit=UNIT)[COLUMNS]
+
+
+def to_csv_text(frame: pd.DataFrame) -> str:
+    """The CSV text of ``frame`` as committed: one decimal, ``\\n`` line ends."""
+    return frame.to_csv(index=False, float_format="%.1f", lineterminator="\n")
+
+
+def main() -> None:
+    """Rewrite ``accounts.csv`` next to this file."""
+    OUTPUT.write_text(to_csv_text(build_accounts()), encoding="utf-8", newline="")
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,1 @@
+"""pandera models, one per table stage."""

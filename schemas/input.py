@@ -1,0 +1,67 @@
+"""Stage 1, the parsed input rows: one row of an accounts file each.
+
+Columns: ``source_file``, ``source_row``, ``economy``, ``period_text`` (as
+written), ``item``, ``price_basis``, ``value`` (float, NaN where the text was
+not a number), ``value_text``, plus the parsed ``frequency``, ``year``,
+``quarter``, ``period``. Row-level rules only; rules across rows (unique keys,
+contiguous quarters, identities) are in `valvol.validate`.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandera.pandas as pa
+
+from valvol.frames import PRICE_BASES
+from valvol.hierarchy import ITEM_CODE
+from valvol.periods import PERIOD_PATTERN
+
+ECONOMY_PATTERN = r"^[A-Z0-9_]{2,16}$"
+
+
+def input_rows(allowed_items: frozenset[str], sign_changing: frozenset[str]) -> pa.DataFrameSchema:
+    """Schema of parsed input rows for one configuration's allowed and sign-changing items."""
+    return pa.DataFrameSchema(
+        {
+            "source_file": pa.Column(str),
+            "source_row": pa.Column("int64"),
+            "economy": pa.Column(
+                str, pa.Check.str_matches(ECONOMY_PATTERN, error="economy code must be 2-16 characters of A-Z, 0-9, _")
+            ),
+            "period_text": pa.Column(
+                str, pa.Check.str_matches(PERIOD_PATTERN, error="period must be YYYY-Qn, YYYYQn or YYYY")
+            ),
+            "item": pa.Column(
+                str,
+                [
+                    pa.Check.str_matches(ITEM_CODE.pattern, error="item is not of the form of an SNA code"),
+                    pa.Check.isin(
+                        sorted(allowed_items),
+                        error="item is not a known SNA code; declare it in [aggregates] of valvol.toml",
+                    ),
+                ],
+            ),
+            "price_basis": pa.Column(
+                str, pa.Check.isin(PRICE_BASES, error=f"price_basis must be one of {', '.join(PRICE_BASES)}")
+            ),
+            "value": pa.Column(
+                float,
+                pa.Check(lambda v: np.isfinite(v) | v.isna(), error="value must be a finite number"),
+                nullable=True,
+            ),
+            "value_text": pa.Column(str),
+        },
+        checks=[
+            pa.Check(
+                lambda df: df["value"].notna(),
+                error="value is not a number",
+                name="value_is_number",
+            ),
+            pa.Check(
+                lambda df: ~(df["value"] < 0) | df["item"].isin(sorted(sign_changing)),
+                error="negative level of an item that cannot be negative",
+                name="non_negative",
+            ),
+        ],
+        strict=False,
+    )

@@ -1,0 +1,126 @@
+"""Stage 3, the published tables: one model per output table."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandera.pandas as pa
+
+_PERIOD = pa.Column(str, pa.Check.str_matches(r"^[0-9]{4}(-Q[1-4])?$"))
+_FREQ = pa.Column(str, pa.Check.isin(["Q", "A"]))
+_FINITE = pa.Check(np.isfinite, error="must be finite")
+
+levels = pa.DataFrameSchema(
+    {
+        "economy": pa.Column(str),
+        "period": _PERIOD,
+        "frequency": _FREQ,
+        "item": pa.Column(str),
+        "price_basis": pa.Column(str, pa.Check.isin(["current", "previous_year", "chain_linked"])),
+        "value": pa.Column(float, _FINITE),
+    },
+    unique=["economy", "period", "item", "price_basis"],
+    strict=True,
+    name="levels",
+)
+
+deflators = pa.DataFrameSchema(
+    {
+        "economy": pa.Column(str),
+        "period": _PERIOD,
+        "frequency": _FREQ,
+        "item": pa.Column(str),
+        "deflator": pa.Column(float, [_FINITE, pa.Check.gt(0)]),
+    },
+    unique=["economy", "period", "item"],
+    strict=True,
+    name="deflators",
+)
+
+growth = pa.DataFrameSchema(
+    {
+        "economy": pa.Column(str),
+        "period": _PERIOD,
+        "frequency": _FREQ,
+        "item": pa.Column(str),
+        "measure": pa.Column(str, pa.Check.isin(["volume", "price", "value"])),
+        "horizon": pa.Column(str, pa.Check.isin(["prev_period", "prev_year"])),
+        "pct": pa.Column(float, _FINITE),
+    },
+    unique=["economy", "period", "item", "measure", "horizon"],
+    strict=True,
+    name="growth",
+)
+
+checks = pa.DataFrameSchema(
+    {
+        "economy": pa.Column(str),
+        "period": pa.Column(str),
+        "check": pa.Column(str),
+        "item": pa.Column(str),
+        "value": pa.Column(float, nullable=True),
+        "tolerance": pa.Column(float, nullable=True),
+        "status": pa.Column(str, pa.Check.isin(["pass", "warn", "fail"])),
+    },
+    strict=True,
+    name="checks",
+)
+
+contributions = pa.DataFrameSchema(
+    {
+        "economy": pa.Column(str),
+        "period": _PERIOD,
+        "frequency": _FREQ,
+        "aggregate": pa.Column(str),
+        "item": pa.Column(str),
+        "horizon": pa.Column(str, pa.Check.isin(["prev_period", "prev_year"])),
+        "contribution_pp": pa.Column(float, _FINITE),
+        "aggregate_growth_pct": pa.Column(float, _FINITE),
+        "residual_pp": pa.Column(float, _FINITE),
+    },
+    unique=["economy", "period", "aggregate", "item", "horizon"],
+    strict=True,
+    name="contributions",
+)
+
+price_gaps = pa.DataFrameSchema(
+    {
+        "economy": pa.Column(str),
+        "period": _PERIOD,
+        "frequency": _FREQ,
+        "measure": pa.Column(str),
+        "horizon": pa.Column(str),
+        "value": pa.Column(float, _FINITE),
+    },
+    unique=["economy", "period", "measure", "horizon"],
+    strict=True,
+    name="price_gaps",
+)
+
+identity_residuals = pa.DataFrameSchema(
+    {
+        "economy": pa.Column(str),
+        "item": pa.Column(str),
+        "price_basis": pa.Column(str),
+        "period": pa.Column(str),
+        "residual": pa.Column(float),
+        "tolerance": pa.Column(float),
+    },
+    checks=[
+        pa.Check(
+            lambda df: df["residual"].abs() <= df["tolerance"],
+            error="components do not add to the aggregate",
+            name="identity",
+        )
+    ],
+    name="identity_residuals",
+)
+
+TABLES = {
+    "levels": levels,
+    "deflators": deflators,
+    "growth": growth,
+    "checks": checks,
+    "volume_contributions": contributions,
+    "deflator_contributions": contributions,
+    "price_gaps": price_gaps,
+}

@@ -1,0 +1,1 @@
+"""SQL statements, one per file: stg_ (staging), int_ (intermediate), out_ (output)."""

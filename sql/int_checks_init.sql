@@ -1,0 +1,5 @@
+-- Intermediate: the checks table (one row per evaluated check and period).
+CREATE OR REPLACE TABLE checks (
+    economy VARCHAR, period VARCHAR, "check" VARCHAR, item VARCHAR,
+    value DOUBLE, tolerance DOUBLE, status VARCHAR
+);

@@ -1,0 +1,4 @@
+-- Output: every evaluated check, ordered (failures and warnings are also counted in the manifest).
+SELECT economy, period, "check", item, value, tolerance, status
+FROM checks
+ORDER BY economy, "check", item, period;

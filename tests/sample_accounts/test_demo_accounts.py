@@ -1,0 +1,334 @@
+"""Tests of the demo economy XQ: the seeded generator and the committed accounts.
+
+The demo economy (the invented Republic of Quillon, currency the tessel) is built by
+``sample_accounts/generate.py`` from invented product quantities and prices. These tests check
+the committed file against the generator and the data against the rules of the trade they must
+obey. Sources are named beside each check; METHODS.md is ``/work/shared/METHODS.md``.
+"""
+
+from __future__ import annotations
+
+import importlib.util
+import tomllib
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+ROOT = Path(__file__).resolve().parents[2]
+FOLDER = ROOT / "sample_accounts"
+GENERATOR = FOLDER / "generate.py"
+ACCOUNTS = FOLDER / "accounts.csv"
+
+COLUMNS = ["economy", "period", "item", "price_basis", "value", "adjustment", "unit"]
+COMPONENTS = ["P31_S14", "P3_S15", "P3_S13", "P51G", "P52", "P53", "P6", "P7", "YA1"]
+AGGREGATES = {
+    "P3": {"P31_S14": 1, "P3_S15": 1, "P3_S13": 1},
+    "P5": {"P51G": 1, "P52": 1, "P53": 1},
+    "B1GQ": {"P3": 1, "P5": 1, "P6": 1, "P7": -1, "YA1": 1},
+}
+#: Number of rounded elementary components inside each item (bounds on accumulated rounding).
+LEAVES = {"P3": 3, "P5": 3, "B1GQ": 9}
+CHAINED = ["P31_S14", "P3_S15", "P3_S13", "P3", "P51G", "P5", "P6", "P7", "B1GQ"]
+SIGN_CHANGING = ["P52", "P53", "YA1"]
+ROUND_Q = 0.05  # half a unit of the published last decimal, one quarter
+ROUND_A = 4 * ROUND_Q  # four rounded quarters in a year
+
+
+def _load_generator():
+    spec = importlib.util.spec_from_file_location("xq_demo_generate", GENERATOR)
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module
+
+
+@pytest.fixture(scope="module")
+def gen():
+    return _load_generator()
+
+
+@pytest.fixture(scope="module")
+def built(gen):
+    return gen.build_accounts()
+
+
+@pytest.fixture(scope="module")
+def committed():
+    return pd.read_csv(ACCOUNTS, dtype={"value": "float64"}, keep_default_na=False)
+
+
+@pytest.fixture(scope="module")
+def wide(committed):
+    """Quarterly values, one column per price basis."""
+    df = committed.pivot(index=["item", "period"], columns="price_basis", values="value").reset_index()
+    df["year"] = df["period"].str[:4].astype("int64")
+    return df
+
+
+@pytest.fixture(scope="module")
+def annual(wide):
+    """Annual values as the sum of the four quarters (levels_at_annual_rate = false)."""
+    return wide.groupby(["item", "year"])[["current", "previous_year", "chain_linked"]].sum(min_count=4)
+
+
+@pytest.fixture(scope="module")
+def unrounded(gen):
+    levels = gen.unrounded_levels()
+    return levels.groupby(["item", "year"])[["c", "k"]].sum(min_count=4)
+
+
+def _deflator_growth(annual: pd.DataFrame, item: str, year: int) -> float:
+    """Annual implicit deflator growth, % (METHODS.md section 1: D = 100*C/CLV, value-weighted)."""
+    a = annual.loc[item]
+    d = a["current"] / a["chain_linked"]
+    return 100.0 * (d.loc[year] / d.loc[year - 1] - 1.0)
+
+
+def _tolerance(item: str) -> float:
+    """Worst-case rounding of an annual value at current or previous-year prices."""
+    return ROUND_A * LEAVES.get(item, 1)
+
+
+# --- the committed file and the generator --------------------------------------------------
+
+
+def test_committed_file_is_the_generator_output(gen, built, committed):
+    # Common practice for committed generated data: the file is reproduced by its generator.
+    assert list(committed.columns) == COLUMNS
+    assert len(committed) == len(built)
+    key = ["economy", "period", "item", "price_basis", "adjustment", "unit"]
+    pd.testing.assert_frame_equal(committed[key], built[key].astype(committed[key].dtypes.to_dict()))
+    np.testing.assert_allclose(committed["value"].to_numpy(), built["value"].to_numpy(), rtol=0, atol=1e-9)
+    assert gen.to_csv_text(built) == ACCOUNTS.read_text(encoding="utf-8")
+
+
+def test_two_runs_give_identical_frames(gen, built):
+    # Common practice: a seeded generator is deterministic.
+    pd.testing.assert_frame_equal(gen.build_accounts(), built)
+
+
+def test_import_has_no_side_effects():
+    # Common practice: importing the module only defines names; it must not write the data file.
+    before = ACCOUNTS.stat().st_mtime_ns
+    module = _load_generator()
+    assert ACCOUNTS.stat().st_mtime_ns == before
+    assert callable(module.build_accounts)
+
+
+def test_folder_holds_one_accounts_file():
+    # The accounts reader takes every .csv and .parquet file of the folder as accounts.
+    files = sorted(p.name for p in FOLDER.iterdir() if p.suffix in {".csv", ".parquet"})
+    assert files == ["accounts.csv"]
+
+
+def test_config_matches_the_generator(gen):
+    raw = tomllib.loads((FOLDER / "valvol.toml").read_text(encoding="utf-8"))
+    assert set(raw) == {"reference_year", "levels_at_annual_rate", "aggregates"}
+    assert raw["reference_year"] == gen.REFERENCE_YEAR == 2020
+    assert raw["levels_at_annual_rate"] is False
+    parsed = {
+        agg: {c.lstrip("-"): -1 if c.startswith("-") else 1 for c in comps}
+        for agg, comps in raw["aggregates"].items()
+    }
+    assert parsed == AGGREGATES == gen.AGGREGATES
+
+
+# --- the input contract --------------------------------------------------------------------
+
+
+def test_input_contract(committed):
+    assert (committed["economy"] == "XQ").all()
+    assert (committed["adjustment"] == "S").all()
+    assert (committed["unit"] == "tessel million").all()
+    periods = [f"{y}-Q{q}" for y in range(2012, 2026) for q in range(1, 5)]
+    assert sorted(committed["period"].unique()) == periods
+    assert set(committed["item"]) == set(COMPONENTS) | set(AGGREGATES)
+    assert not committed.duplicated(["item", "price_basis", "period"]).any()
+    bases = committed.groupby("item")["price_basis"].agg(lambda s: tuple(sorted(set(s))))
+    for item in CHAINED:
+        assert bases[item] == ("chain_linked", "current", "previous_year"), item
+    for item in SIGN_CHANGING:  # METHODS.md sections 1 and 2.4: no ratio chaining of sign-changing items
+        assert bases[item] == ("current", "previous_year"), item
+    assert (committed.groupby(["item", "price_basis"]).size() == 56).all()
+    tenths = committed["value"].to_numpy() * 10.0
+    np.testing.assert_allclose(tenths, np.round(tenths), rtol=0, atol=1e-6)
+
+
+def test_scale_and_shares_in_2012(annual):
+    # Stated design of the demo economy (a small open economy), 2012 annual shares of GDP.
+    cur = annual["current"].xs(2012, level="year")
+    gdp = cur["B1GQ"]
+    assert 4 * 40_000 <= gdp <= 4 * 60_000
+    bounds = {
+        "P31_S14": (55, 60),
+        "P3_S15": (1, 2),
+        "P3_S13": (18, 20),
+        "P51G": (20, 22),
+        "P6": (45, 55),
+        "P7": (45, 55),
+    }
+    for item, (lo, hi) in bounds.items():
+        assert lo <= 100 * cur[item] / gdp <= hi, item
+
+
+def test_positive_and_sign_changing_items(wide):
+    for item in CHAINED:
+        rows = wide[wide["item"] == item]
+        assert (rows[["current", "previous_year", "chain_linked"]] > 0).all().all(), item
+    gdp = wide[wide["item"] == "B1GQ"].set_index("period")["current"]
+    limits = {"P52": 0.01, "P53": 0.002, "YA1": 0.003}  # shares of GDP, both signs (design)
+    for item, limit in limits.items():
+        rows = wide[wide["item"] == item].set_index("period")
+        assert (rows["current"] > 0).any() and (rows["current"] < 0).any(), item
+        assert (rows["current"].abs() <= limit * gdp).all(), item
+        same_sign = np.sign(rows["current"]) * np.sign(rows["previous_year"]) >= 0
+        assert same_sign.all(), item  # deflated by a positive price relative
+
+
+# --- accounting identities -----------------------------------------------------------------
+
+
+@pytest.mark.parametrize("basis", ["current", "previous_year"])
+def test_expenditure_identities_hold_each_quarter(wide, basis):
+    # SNA expenditure identity, B1GQ = P3 + P5 + P6 - P7 + YA1 (common practice); aggregates are
+    # formed at current and previous-year prices as signed sums (METHODS.md, Notation).
+    table = wide.pivot(index="period", columns="item", values=basis)
+    for agg, signs in AGGREGATES.items():
+        total = sum(sign * table[item] for item, sign in signs.items())
+        np.testing.assert_allclose(table[agg], total, rtol=0, atol=1e-6, err_msg=f"{agg} {basis}")
+
+
+# --- previous-year prices ------------------------------------------------------------------
+
+
+def test_annual_previous_year_value_is_quantities_at_previous_year_unit_values(gen, annual):
+    # IMF QNA Manual 2017, ch.8, para. 8.17, eq.(2) (METHODS.md Notation, READ-partial):
+    # K_y = sum over products of Pbar_{j,y-1} * Q_{j,y}, Pbar the value-weighted annual average price;
+    # annual K_y is the sum of the four quarters.
+    prod = gen.simulate_products()
+    prod["value"] = prod["price"] * prod["quantity"]
+    ann = prod.groupby(["item", "product", "year"])[["value", "quantity"]].sum()
+    unit_value = (ann["value"] / ann["quantity"]).rename("pbar")
+    prev = unit_value.reset_index().assign(year=lambda d: d["year"] + 1)
+    merged = ann.reset_index().merge(prev, on=["item", "product", "year"])
+    merged["K"] = merged["pbar"] * merged["quantity"]
+    expected = merged.groupby(["item", "year"])["K"].sum()
+    baskets = ["P31_S14", "P3_S15", "P3_S13", "P51G", "P6", "P7"]
+    published = annual["previous_year"].loc[baskets]
+    diff = (published - expected.reindex(published.index)).abs()
+    assert diff.max() <= ROUND_A + 1e-6
+
+
+def test_unit_values_are_value_weighted(gen):
+    # METHODS.md section 2.2, pitfall [DERIVED]: at value-weighted unit values the quarters of y
+    # add up to the year's value C_y; an unweighted mean of quarterly prices misses it.
+    prod = gen.simulate_products()
+    prod["value"] = prod["price"] * prod["quantity"]
+    keys = ["item", "product", "year"]
+    ann = prod.groupby(keys)[["value", "quantity"]].sum()
+    pbar = ann["value"] / ann["quantity"]
+    revalued = pbar * ann["quantity"]
+    np.testing.assert_allclose(revalued, ann["value"], rtol=1e-12)
+    unweighted = prod.groupby(keys)["price"].mean() * ann["quantity"]
+    energy = (unweighted - ann["value"]).xs(("P7", "imported energy", 2022))
+    assert abs(energy) > 1.0  # the volatile 2022 energy price makes the pitfall visible
+
+
+# --- chain-linked volumes by annual overlap ------------------------------------------------
+
+
+def test_reference_year_annual_volume_equals_current_value(annual, unrounded):
+    # ABS 5216.0 (2020-21), ch.6 Annex para. 6A.2, eq.(1); METHODS.md 2.1: CLV_r = C_r, r = 2020.
+    for item in CHAINED:
+        clv = annual.loc[(item, 2020), "chain_linked"]
+        assert abs(clv - unrounded.loc[(item, 2020), "c"]) <= ROUND_A + 1e-6, item
+        assert abs(clv - annual.loc[(item, 2020), "current"]) <= ROUND_A + _tolerance(item) + 1e-6, item
+
+
+def test_quarters_sum_to_the_annual_chain(unrounded, annual):
+    # METHODS.md 2.1-2.2 [READ: ABS 5216.0 ch.6 Annex eq.(1); DERIVED: annual overlap, QNA 2017
+    # section 8.4.D]: L_y = K_y / C_{y-1}, CLV_2020 = C_2020, chained both ways; the four published
+    # quarters of y sum to CLV_y. The chain is rebuilt here from the unrounded values.
+    u = unrounded.loc[CHAINED].reset_index().sort_values(["item", "year"])
+    link = (u["k"] / u.groupby("item")["c"].shift(1)).fillna(1.0)
+    u["cum"] = link.groupby(u["item"]).cumprod()
+    base = u[u["year"] == 2020].set_index("item")
+    u["clv"] = u["cum"] * u["item"].map(base["c"] / base["cum"])
+    expected = u[u["year"] >= 2012].set_index(["item", "year"])["clv"]
+    published = annual["chain_linked"].loc[expected.index]
+    assert (published - expected).abs().max() <= ROUND_A + 1e-6
+
+
+def test_quarterly_volumes_follow_the_annual_overlap_formula(gen, committed):
+    # METHODS.md 2.2 annual_overlap [DERIVED]: CLV(s,y) = k(s,y) * CLV_{y-1} / C_{y-1}, computed from
+    # unrounded values and rounded to one decimal.
+    levels = gen.unrounded_levels()
+    ann = levels.groupby(["item", "year"])[["c", "k"]].sum(min_count=4)
+    quarters = committed[committed["price_basis"] == "chain_linked"].assign(
+        year=lambda d: d["period"].str[:4].astype("int64")
+    )
+    clv_annual = quarters.groupby(["item", "year"])["value"].sum()
+    # CLV_{y-1}/C_{y-1} from y's own link: CLV_{y-1} = CLV_y * C_{y-1} / K_y, so the ratio is CLV_y / K_y.
+    ratio = (clv_annual / ann["k"].reindex(clv_annual.index)).rename("ratio")
+    merged = quarters.merge(levels, on=["item", "year", "period"]).merge(
+        ratio.reset_index(), on=["item", "year"]
+    )
+    expected = merged["k"] * merged["ratio"]
+    # ratio carries the rounding of the four published quarters (<= 0.2 over CLV_y)
+    tol = ROUND_Q + merged["k"] * ROUND_A / merged["k"].groupby([merged["item"], merged["year"]]).transform(
+        "sum"
+    )
+    assert ((merged["value"] - expected).abs() <= tol + 1e-6).all()
+
+
+def test_annual_links_from_published_data(annual):
+    # METHODS.md 2.1 [READ: ABS 5216.0 ch.6 Annex eq.(1)]: CLV_y / CLV_{y-1} = K_y / C_{y-1}, here
+    # from the published (rounded) values alone; the tolerance bounds the rounding carried by each
+    # term. 2012 is not checked: its previous year (2011) is not published.
+    for item in CHAINED:
+        a = annual.loc[item]
+        c_prev, clv_prev = a["current"].shift(1), a["chain_linked"].shift(1)
+        link = a["previous_year"] / c_prev
+        expected = clv_prev * link
+        e = _tolerance(item)
+        tol = ROUND_A + link * ROUND_A + expected * (e / a["previous_year"] + e / c_prev)
+        ok = ((a["chain_linked"] - expected).abs() <= tol + 1e-6).iloc[1:]
+        assert ok.all(), item
+
+
+def test_aggregates_are_not_sums_of_chained_components(annual):
+    # ESA 95 para. 10.65 (METHODS.md 2.3): chained components do not add to the chained aggregate
+    # away from the reference year; each aggregate is chained from its own sums.
+    a = annual["chain_linked"].unstack("item")
+    residual = a["B1GQ"] - (a["P3"] + a["P51G"] + a["P6"] - a["P7"])
+    assert residual.drop(index=[2020]).abs().max() > 10.0
+
+
+# --- the story -----------------------------------------------------------------------------
+
+
+def test_energy_shock_2022_lifts_household_prices_above_gdp_prices(annual):
+    # Design of the demo: imported energy price shock in 2022. Annual implicit deflators
+    # (METHODS.md section 1 and 6: the household deflator includes imported goods, the GDP
+    # deflator subtracts imports).
+    hh = _deflator_growth(annual, "P31_S14", 2022)
+    gdp = _deflator_growth(annual, "B1GQ", 2022)
+    assert hh - gdp >= 3.0
+    assert _deflator_growth(annual, "P7", 2022) > 10.0
+    tot = _deflator_growth(annual, "P6", 2022) - _deflator_growth(annual, "P7", 2022)
+    assert tot < -5.0  # terms of trade fall (METHODS.md section 5: ToT = 100 Px/Pm)
+
+
+def test_export_boom_2024_2025_lifts_gdp_prices_above_household_prices(annual):
+    # Design of the demo: export commodity boom in 2024-2025; terms of trade improve.
+    for year in (2024, 2025):
+        px = _deflator_growth(annual, "P6", year)
+        assert px > _deflator_growth(annual, "P31_S14", year), year
+        assert _deflator_growth(annual, "B1GQ", year) > _deflator_growth(annual, "P31_S14", year), year
+        assert px > _deflator_growth(annual, "P7", year), year
+
+
+def test_volume_dip_in_2020_and_recovery(annual):
+    gdp = annual["chain_linked"].loc["B1GQ"]
+    assert gdp.loc[2020] < gdp.loc[2019] < gdp.loc[2021]

@@ -1,0 +1,52 @@
+"""valvol.toml: typed settings, unknown keys rejected (README, configuration)."""
+
+import pytest
+
+from valvol.config import Config, config_from_mapping, load_config
+from valvol.errors import ConfigError
+
+
+def test_defaults_without_file(tmp_path):
+    cfg = load_config(tmp_path)
+    assert cfg == Config()
+    assert cfg.hierarchy.aggregates["B1GQ"][3].item == "P7"
+    assert cfg.hierarchy.aggregates["B1GQ"][3].sign == -1
+
+
+def test_full_file_is_read(tmp_path):
+    (tmp_path / "valvol.toml").write_text(
+        'reference_year = 2020\nlevels_at_annual_rate = true\n[aggregates]\nB1GQ = ["P3", "-P7"]\n'
+        'P3 = ["P31_S14", "P3_S13"]\n[checks]\ntolerance_abs = 1\n[volumes]\nmethod = "over_the_year"\n'
+    )
+    cfg = load_config(tmp_path)
+    assert cfg.reference_year == 2020 and cfg.levels_at_annual_rate
+    assert cfg.hierarchy.order().index("P3") < cfg.hierarchy.order().index("B1GQ")
+    assert cfg.checks.tolerance_abs == 1.0
+    assert cfg.volumes.method == "over_the_year"
+
+
+@pytest.mark.parametrize(
+    "raw, fragment",
+    [
+        ({"refrence_year": 2020}, "unknown key(s) refrence_year"),
+        ({"reference_year": "2020"}, "four-digit year"),
+        ({"levels_at_annual_rate": 1}, "true or false"),
+        ({"aggregates": {"B1GQ": "P3"}}, "must be a list"),
+        ({"aggregates": {"B1GQ": ["P3"], "P3": ["B1GQ"]}}, "cycle"),
+        ({"aggregates": {"gdp": ["P3"]}}, "form of an SNA code"),
+        ({"checks": {"tolerance": 1}}, "unknown key(s) in [checks]"),
+        ({"volumes": {"method": "chain"}}, "must be one of"),
+        ({"contributions": {"convention": "ons"}}, "must be one of"),
+    ],
+)
+def test_bad_settings_are_config_errors(raw, fragment):
+    with pytest.raises(ConfigError) as err:
+        config_from_mapping(raw, source="x/valvol.toml")
+    assert fragment in str(err.value)
+    assert str(err.value).startswith("x/valvol.toml")
+
+
+def test_invalid_toml_names_file(tmp_path):
+    (tmp_path / "valvol.toml").write_text("reference_year = \n")
+    with pytest.raises(ConfigError, match="valvol.toml: not valid TOML"):
+        load_config(tmp_path)

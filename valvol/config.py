@@ -1,0 +1,196 @@
+"""Typed settings for one accounts folder, read from its optional ``valvol.toml``.
+
+The configuration is one frozen object built once and passed explicitly to
+every function that needs it; nothing is read at import time. Unknown keys and
+values of the wrong type are `ConfigError`s naming the file and the key.
+
+Example ``valvol.toml``::
+
+    reference_year = 2020          # volumes re-referenced so that C_2020 = CLV_2020
+    levels_at_annual_rate = false  # false: year = sum of quarters; true: mean
+
+    [aggregates]                   # aggregate = signed components
+    B1GQ = ["P3", "P5", "P6", "-P7", "YA1"]
+    P3 = ["P31_S14", "P3_S15", "P3_S13"]
+
+    [checks]
+    tolerance_abs = 0.5            # identity tolerance: max(abs, rel * sum |components|)
+    tolerance_rel = 1e-4
+    deflator_jump_pct = 5.0        # warn when a quarterly deflator moves more than this
+
+    [volumes]
+    method = "annual_overlap"      # or "one_quarter_overlap", "over_the_year"
+    index = "laspeyres"            # or "fisher" (data chained as Fisher indexes)
+
+    [contributions]
+    convention = "two_step"        # or "prior_year_weights", "fisher"
+
+    [price_gaps]
+    numeraire = "trade_average"    # or "import", "export", "domestic_final_demand"
+"""
+
+from __future__ import annotations
+
+import tomllib
+from dataclasses import dataclass, field, fields
+from pathlib import Path
+from typing import Any
+
+from valvol.errors import ConfigError
+from valvol.hierarchy import DEFAULT_AGGREGATES, Hierarchy
+
+CONFIG_FILE = "valvol.toml"
+
+
+@dataclass(frozen=True)
+class ChecksConfig:
+    """Tolerances of the accounting checks (same unit as the accounts)."""
+
+    tolerance_abs: float = 0.5
+    tolerance_rel: float = 1e-4
+    deflator_jump_pct: float = 5.0
+
+
+@dataclass(frozen=True)
+class VolumesConfig:
+    """How previous-year-price data are chained into volumes."""
+
+    method: str = "annual_overlap"
+    index: str = "laspeyres"
+
+
+@dataclass(frozen=True)
+class ContributionsConfig:
+    """Convention of contributions to growth."""
+
+    convention: str = "two_step"
+
+
+@dataclass(frozen=True)
+class PriceGapsConfig:
+    """Numeraire of the trading gain."""
+
+    numeraire: str = "trade_average"
+
+
+_CHOICES: dict[tuple[str, str], tuple[str, ...]] = {
+    ("volumes", "method"): ("annual_overlap", "one_quarter_overlap", "over_the_year"),
+    ("volumes", "index"): ("laspeyres", "fisher"),
+    ("contributions", "convention"): ("two_step", "prior_year_weights", "fisher"),
+    ("price_gaps", "numeraire"): ("trade_average", "import", "export", "domestic_final_demand"),
+}
+
+
+@dataclass(frozen=True)
+class Config:
+    """Everything that steers one rebuild of one accounts folder."""
+
+    reference_year: int | None = None
+    levels_at_annual_rate: bool = False
+    hierarchy: Hierarchy = field(default_factory=Hierarchy.default)
+    checks: ChecksConfig = field(default_factory=ChecksConfig)
+    volumes: VolumesConfig = field(default_factory=VolumesConfig)
+    contributions: ContributionsConfig = field(default_factory=ContributionsConfig)
+    price_gaps: PriceGapsConfig = field(default_factory=PriceGapsConfig)
+    source: str = ""
+
+    def as_dict(self) -> dict[str, Any]:
+        """Plain data for the manifest (the hierarchy as signed code lists)."""
+        return {
+            "reference_year": self.reference_year,
+            "levels_at_annual_rate": self.levels_at_annual_rate,
+            "aggregates": {
+                a: [("-" if c.sign < 0 else "") + c.item for c in comps]
+                for a, comps in sorted(self.hierarchy.aggregates.items())
+            },
+            "sign_changing": sorted(self.hierarchy.sign_changing),
+            "checks": _section_dict(self.checks),
+            "volumes": _section_dict(self.volumes),
+            "contributions": _section_dict(self.contributions),
+            "price_gaps": _section_dict(self.price_gaps),
+            "source": self.source,
+        }
+
+
+_SECTIONS = {
+    "checks": ChecksConfig,
+    "volumes": VolumesConfig,
+    "contributions": ContributionsConfig,
+    "price_gaps": PriceGapsConfig,
+}
+_TOP_KEYS = {"reference_year", "levels_at_annual_rate", "aggregates", "sign_changing", *_SECTIONS}
+
+
+def _section_dict(obj: object) -> dict[str, Any]:
+    return {f.name: getattr(obj, f.name) for f in fields(obj)}  # type: ignore[arg-type]
+
+
+def load_config(accounts_dir: str | Path) -> Config:
+    """Read ``valvol.toml`` from ``accounts_dir`` (defaults when absent)."""
+    path = Path(accounts_dir) / CONFIG_FILE
+    if not path.exists():
+        return Config()
+    try:
+        raw = tomllib.loads(path.read_text(encoding="utf-8"))
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        raise ConfigError(f"not valid TOML: {exc}", file=str(path)) from None
+    return config_from_mapping(raw, source=str(path))
+
+
+def config_from_mapping(raw: dict[str, Any], *, source: str = "") -> Config:
+    """Build a `Config` from parsed TOML, checking every key and type."""
+    unknown = sorted(set(raw) - _TOP_KEYS)
+    if unknown:
+        raise ConfigError(
+            f"unknown key(s) {', '.join(unknown)}; allowed: {', '.join(sorted(_TOP_KEYS))}", file=source
+        )
+    ref = raw.get("reference_year")
+    if ref is not None and (isinstance(ref, bool) or not isinstance(ref, int) or not 1000 <= ref <= 9999):
+        raise ConfigError(f"reference_year must be a four-digit year, got {ref!r}", file=source)
+    annual_rate = raw.get("levels_at_annual_rate", False)
+    if not isinstance(annual_rate, bool):
+        raise ConfigError(f"levels_at_annual_rate must be true or false, got {annual_rate!r}", file=source)
+    aggregates = raw.get("aggregates", DEFAULT_AGGREGATES)
+    if not isinstance(aggregates, dict):
+        raise ConfigError("[aggregates] must be a table of code = [components]", file=source)
+    sign_changing = raw.get("sign_changing", [])
+    if not isinstance(sign_changing, list) or not all(isinstance(s, str) for s in sign_changing):
+        raise ConfigError("sign_changing must be a list of item codes", file=source)
+    try:
+        hierarchy = Hierarchy.from_mapping(aggregates, sign_changing)
+    except ConfigError as exc:
+        raise ConfigError(str(exc), file=source) from None
+    sections = {name: _section(raw.get(name, {}), cls, name, source) for name, cls in _SECTIONS.items()}
+    return Config(
+        reference_year=ref,
+        levels_at_annual_rate=annual_rate,
+        hierarchy=hierarchy,
+        source=source,
+        **sections,
+    )
+
+
+def _section(raw: Any, cls: type, name: str, source: str) -> Any:
+    if not isinstance(raw, dict):
+        raise ConfigError(f"[{name}] must be a table", file=source)
+    known = {f.name: f for f in fields(cls)}
+    unknown = sorted(set(raw) - set(known))
+    if unknown:
+        raise ConfigError(
+            f"unknown key(s) in [{name}]: {', '.join(unknown)}; allowed: {', '.join(known)}", file=source
+        )
+    values = {}
+    for key, value in raw.items():
+        default = known[key].default
+        if isinstance(default, float):
+            if isinstance(value, bool) or not isinstance(value, int | float) or value < 0:
+                raise ConfigError(f"[{name}] {key} must be a non-negative number, got {value!r}", file=source)
+            value = float(value)
+        elif isinstance(default, str):
+            choices = _CHOICES.get((name, key))
+            if not isinstance(value, str) or (choices and value not in choices):
+                raise ConfigError(
+                    f"[{name}] {key} must be one of {', '.join(choices or ())}, got {value!r}", file=source
+                )
+        values[key] = value
+    return cls(**values)

@@ -1,0 +1,201 @@
+"""The derive stage: volumes, deflators, growth, contributions, price gaps and checks.
+
+Plain relational arithmetic runs in DuckDB (``sql/int_*.sql``); the methods
+that need more than that (chain-linking, contributions, deflator
+decompositions, price gaps) are pure functions of `valvol.methods` applied to
+the whole levels panel at once. Order of the steps:
+
+1. volumes: given chain-linked volumes are kept as published (re-referenced
+   only when another ``reference_year`` is asked for); where an economy gives
+   previous-year prices, every other series is chain-linked; where both are
+   given, the difference is reported as a check; the non-additivity residual
+   of each aggregate becomes item ``<AGGREGATE>_RESIDUAL``;
+2. deflators and growth rates (SQL);
+3. checks: identities, years against quarters, deflator jumps (SQL);
+4. contributions to volume and deflator growth, price gaps (methods).
+"""
+
+from __future__ import annotations
+
+import logging
+
+import duckdb
+import pandas as pd
+
+from valvol import db
+from valvol.config import Config
+from valvol.frames import LEVEL_COLUMNS
+
+log = logging.getLogger("valvol")
+
+CHECK_COLUMNS = ["economy", "period", "check", "item", "value", "tolerance", "status"]
+#: Relative difference (percent) beyond which computed and given volumes earn a warning.
+CHAIN_DIFF_WARN_PCT = 0.1
+
+
+def _levels(con: duckdb.DuckDBPyConnection) -> pd.DataFrame:
+    return con.execute(
+        "SELECT economy, item, price_basis, frequency, year, quarter, period, value FROM levels"
+    ).df()
+
+
+def _insert_levels(con: duckdb.DuckDBPyConnection, rows: pd.DataFrame, origin: str) -> None:
+    if rows.empty:
+        return
+    db.register(con, "method_rows", rows[LEVEL_COLUMNS].assign(origin=origin))
+    db.run_sql(con, "int_levels_insert")
+    con.unregister("method_rows")
+
+
+def _insert_checks(con: duckdb.DuckDBPyConnection, rows: pd.DataFrame) -> None:
+    if rows.empty:
+        return
+    db.register(con, "check_rows", rows[CHECK_COLUMNS])
+    db.run_sql(con, "int_checks_insert")
+    con.unregister("check_rows")
+
+
+def derive_all(con: duckdb.DuckDBPyConnection, config: Config) -> None:
+    """Run every derive step on the staged database (see the module docstring)."""
+    db.run_sql(con, "int_checks_init")
+    derive_volumes(con, config)
+    sign_changing = sorted(config.hierarchy.sign_changing)
+    db.run_sql(con, "int_deflators", sign_changing=sign_changing)
+    db.run_sql(con, "int_growth", sign_changing=sign_changing)
+    db.run_sql(con, "int_checks_identity")
+    db.run_sql(con, "int_checks_annual")
+    db.run_sql(con, "int_checks_deflator_jump", jump_pct=config.checks.deflator_jump_pct)
+    derive_contributions(con, config)
+    derive_price_gaps(con, config)
+
+
+def derive_volumes(con: duckdb.DuckDBPyConnection, config: Config) -> None:
+    """Chain-link, re-reference and compare volumes; add non-additivity residuals."""
+    from valvol.methods import chainlink
+
+    levels = _levels(con)
+    h = config.hierarchy
+    given = levels[levels["price_basis"] == "chain_linked"]
+    current = levels[levels["price_basis"] == "current"]
+    if config.reference_year is not None and not given.empty:
+        moved = _rereference_given(given, current, config)
+        if not moved.empty:
+            db.register(con, "method_rows", moved[LEVEL_COLUMNS])
+            db.run_sql(con, "int_levels_replace")
+            con.unregister("method_rows")
+            _insert_levels(con, moved, "rereferenced")
+            given = pd.concat([given[~given["economy"].isin(moved["economy"].unique())], moved])
+    pyp_economies = levels.loc[levels["price_basis"] == "previous_year", "economy"].unique()
+    computed = pd.DataFrame(columns=LEVEL_COLUMNS)
+    if len(pyp_economies):
+        base = levels[levels["economy"].isin(pyp_economies) & levels["price_basis"].isin(["current", "previous_year"])]
+        computed = chainlink.chain_link(
+            base,
+            hierarchy=h,
+            method=config.volumes.method,
+            reference_year=config.reference_year if config.reference_year is not None
+            else _given_reference_year(given, current),
+            annual_rate=config.levels_at_annual_rate,
+        )
+        key = ["economy", "item", "frequency", "year", "quarter"]
+        have = given[key].drop_duplicates()
+        fresh = computed.merge(have, on=key, how="left", indicator=True)
+        _insert_levels(con, fresh[fresh["_merge"] == "left_only"].drop(columns="_merge"), "chain_linked")
+        both = computed.merge(have, on=key, how="inner")
+        if not both.empty:
+            cmp = chainlink.compare_chain_linked(given, both)
+            _insert_checks(con, _chain_comparison_checks(cmp))
+    volumes = pd.concat([given, computed]).drop_duplicates(["economy", "item", "frequency", "year", "quarter"])
+    residual = chainlink.nonadditivity_residual(volumes, h)
+    _insert_levels(con, residual, "residual")
+    _insert_checks(
+        con,
+        residual.assign(check="nonadditivity_chain_linked", tolerance=float("nan"), status="pass")[
+            ["economy", "period", "check", "item", "value", "tolerance", "status"]
+        ],
+    )
+    log.info("volumes: %d given, %d chain-linked here, %d residual rows", len(given), len(computed), len(residual))
+
+
+def _given_reference_year(given: pd.DataFrame, current: pd.DataFrame) -> int | None:
+    """The year in which given annual volumes equal current prices (None when none is found)."""
+    if given.empty:
+        return None
+    key = ["economy", "item", "year"]
+    a = given[given["frequency"] == "A"].merge(current[current["frequency"] == "A"], on=key, suffixes=("_v", "_c"))
+    if a.empty:
+        return None
+    a = a[a["value_c"] > 0]
+    close = a[(a["value_v"] - a["value_c"]).abs() <= 1e-4 * a["value_c"].abs() + 0.5]
+    if close.empty:
+        return None
+    return int(close["year"].mode().iloc[0])
+
+
+def _rereference_given(given: pd.DataFrame, current: pd.DataFrame, config: Config) -> pd.DataFrame:
+    """Given volumes of economies not already referenced to ``reference_year``, re-referenced."""
+    from valvol.methods import chainlink
+
+    r = config.reference_year
+    needs = []
+    for economy, vol in given.groupby("economy", sort=True):  # one decision per economy, not per series
+        ref = _given_reference_year(vol, current[current["economy"] == economy])
+        if ref != r:
+            needs.append(economy)
+    if not needs:
+        return pd.DataFrame(columns=LEVEL_COLUMNS)
+    moved = chainlink.rereference(
+        given[given["economy"].isin(needs)], current[current["economy"].isin(needs)], r,
+        hierarchy=config.hierarchy,
+    )
+    return moved
+
+
+def _chain_comparison_checks(cmp: pd.DataFrame) -> pd.DataFrame:
+    status = (cmp["pct_diff"].abs() <= CHAIN_DIFF_WARN_PCT).map({True: "pass", False: "warn"})
+    return pd.DataFrame(
+        {
+            "economy": cmp["economy"],
+            "period": cmp["period"],
+            "check": "chain_linked_given_vs_computed_pct",
+            "item": cmp["item"],
+            "value": cmp["pct_diff"],
+            "tolerance": CHAIN_DIFF_WARN_PCT,
+            "status": status,
+        }
+    )
+
+
+def derive_contributions(con: duckdb.DuckDBPyConnection, config: Config) -> None:
+    """Contributions to volume growth and to deflator growth of every declared aggregate."""
+    from valvol.methods import contributions, deflator_contributions
+
+    levels = _levels(con)
+    levels = levels[~levels["item"].str.endswith("_RESIDUAL")]
+    vol = contributions.volume_contributions(
+        levels, hierarchy=config.hierarchy, convention=config.contributions.convention,
+        annual_rate=config.levels_at_annual_rate,
+    )
+    db.register(con, "contribution_rows", vol)
+    db.run_sql(con, "int_volume_contributions")
+    con.unregister("contribution_rows")
+    defl = deflator_contributions.deflator_contributions(
+        levels, hierarchy=config.hierarchy,
+        # the UK agency's weighting is a volume convention; prices then follow the exact two-step links
+        convention="fisher" if config.contributions.convention == "fisher" else "two_step",
+    )
+    db.register(con, "contribution_rows", defl)
+    db.run_sql(con, "int_deflator_contributions")
+    con.unregister("contribution_rows")
+
+
+def derive_price_gaps(con: duckdb.DuckDBPyConnection, config: Config) -> None:
+    """Terms of trade, trading gain, real GDI and deflator gaps."""
+    from valvol.methods import price_gaps
+
+    levels = _levels(con)
+    levels = levels[~levels["item"].str.endswith("_RESIDUAL")]
+    gaps = price_gaps.price_gaps(levels, hierarchy=config.hierarchy, numeraire=config.price_gaps.numeraire)
+    db.register(con, "gap_rows", gaps)
+    db.run_sql(con, "int_price_gaps")
+    con.unregister("gap_rows")

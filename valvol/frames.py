@@ -1,0 +1,66 @@
+"""The one internal table shape every method reads and writes: the *levels panel*.
+
+A levels panel is a long pandas DataFrame, one row per value, with columns
+
+============  =========  ====================================================
+column        dtype      meaning
+============  =========  ====================================================
+economy       str        economy code, ``[A-Z0-9_]{2,16}``
+item          str        SNA 2008 / SDMX transaction code (B1GQ, P31_S14, ...)
+price_basis   str        ``current``, ``previous_year`` or ``chain_linked``
+frequency     str        ``Q`` (quarter) or ``A`` (year)
+year          int64      calendar year
+quarter       int64      1..4 for quarters, 0 for years
+period        str        ``YYYY-Qn`` or ``YYYY`` (canonical form)
+value         float64    level in the unit of the economy's accounts
+============  =========  ====================================================
+
+The key is ``(economy, item, price_basis, frequency, year, quarter)``. Methods
+are vectorised over the whole panel (group-wise shifts, merges and cumulative
+products), never a Python loop per series.
+
+Derived tables use the same key columns where they apply; method outputs add
+their own value columns (``deflator``, ``pct``, ``contribution_pp``, ...).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+KEY = ["economy", "item", "price_basis", "frequency", "year", "quarter"]
+LEVEL_COLUMNS = ["economy", "item", "price_basis", "frequency", "year", "quarter", "period", "value"]
+PRICE_BASES = ("current", "previous_year", "chain_linked")
+FREQUENCIES = ("Q", "A")
+
+
+def period_label(year: np.ndarray | pd.Series, quarter: np.ndarray | pd.Series) -> pd.Series:
+    """Canonical period labels: ``YYYY-Qn`` for quarter > 0, ``YYYY`` for quarter 0.
+
+    >>> list(period_label(pd.Series([2020, 2020]), pd.Series([0, 3])))
+    ['2020', '2020-Q3']
+    """
+    y = pd.Series(np.asarray(year), dtype="int64").astype(str)
+    q = pd.Series(np.asarray(quarter), dtype="int64")
+    return y.where(q == 0, y + "-Q" + q.astype(str))
+
+
+def empty_levels() -> pd.DataFrame:
+    """An empty levels panel with the right dtypes."""
+    return pd.DataFrame(
+        {
+            "economy": pd.Series(dtype="str"),
+            "item": pd.Series(dtype="str"),
+            "price_basis": pd.Series(dtype="str"),
+            "frequency": pd.Series(dtype="str"),
+            "year": pd.Series(dtype="int64"),
+            "quarter": pd.Series(dtype="int64"),
+            "period": pd.Series(dtype="str"),
+            "value": pd.Series(dtype="float64"),
+        }
+    )
+
+
+def sort_levels(df: pd.DataFrame) -> pd.DataFrame:
+    """Sort by the full key so that outputs are deterministic."""
+    return df.sort_values(KEY, kind="mergesort", ignore_index=True)

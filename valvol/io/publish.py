@@ -1,0 +1,127 @@
+"""Atomic publication of a rebuild into an output root.
+
+Layout of ``--out DIR``::
+
+    DIR/
+      vintages/<vintage>/       one complete rebuild: <table>.parquet, valvol.duckdb, manifest.json
+      latest -> vintages/<v>    symbolic link, replaced atomically (rename) after a rebuild succeeds
+      <table>.parquet           links through ``latest`` (levels, deflators, growth, checks, ...)
+      manifest.json, valvol.duckdb   links through ``latest``
+      .staging/<id>/            work of a running rebuild; never visible as a vintage
+      .lock                     held (flock) by the rebuild writing to DIR
+
+A rebuild works only inside ``.staging/``; the finished folder is renamed into
+``vintages/`` and only then does ``latest`` move, with one ``rename(2)``.
+A failed or killed rebuild leaves the previous vintage and ``latest`` intact;
+its staging folder is removed by the next rebuild.
+"""
+
+from __future__ import annotations
+
+import fcntl
+import hashlib
+import os
+import shutil
+import uuid
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
+
+from valvol.errors import OutputBusyError
+
+STAGING = ".staging"
+VINTAGES = "vintages"
+LATEST = "latest"
+
+
+def sha256_file(path: Path) -> str:
+    """Hex SHA-256 of a file's bytes."""
+    h = hashlib.sha256()
+    with path.open("rb") as fh:
+        for block in iter(lambda: fh.read(1 << 20), b""):
+            h.update(block)
+    return h.hexdigest()
+
+
+@contextmanager
+def output_lock(out_dir: Path) -> Iterator[None]:
+    """Hold the output root's lock for one rebuild; fail at once if another rebuild holds it."""
+    out_dir.mkdir(parents=True, exist_ok=True)
+    fh = (out_dir / ".lock").open("a+")
+    try:
+        fcntl.flock(fh, fcntl.LOCK_EX | fcntl.LOCK_NB)
+    except BlockingIOError:
+        fh.seek(0)
+        holder = fh.read().strip() or "unknown"
+        fh.close()
+        raise OutputBusyError(
+            f"another rebuild is writing to {out_dir} (pid {holder}); wait for it to finish and retry"
+        ) from None
+    try:
+        fh.seek(0)
+        fh.truncate()
+        fh.write(str(os.getpid()))
+        fh.flush()
+        yield
+    finally:
+        fh.seek(0)
+        fh.truncate()
+        fcntl.flock(fh, fcntl.LOCK_UN)
+        fh.close()
+
+
+def new_staging_dir(out_dir: Path) -> Path:
+    """A fresh, empty work folder under ``DIR/.staging`` (call with the lock held)."""
+    root = out_dir / STAGING
+    if root.exists():  # leftovers of a failed or killed rebuild
+        shutil.rmtree(root)
+    path = root / uuid.uuid4().hex
+    path.mkdir(parents=True)
+    return path
+
+
+def discard_staging(path: Path) -> None:
+    """Remove a staging folder after a failure."""
+    shutil.rmtree(path, ignore_errors=True)
+
+
+def publish(staging: Path, out_dir: Path, vintage: str, links: list[str]) -> Path:
+    """Move a finished staging folder into ``vintages/`` and point ``latest`` at it.
+
+    ``links`` are file names inside the vintage that get a stable link at the
+    top of ``out_dir`` (through ``latest``).
+    """
+    vintages = out_dir / VINTAGES
+    vintages.mkdir(exist_ok=True)
+    target = vintages / vintage
+    if target.exists():
+        raise FileExistsError(f"vintage {vintage} already exists in {vintages}")
+    _fsync_tree(staging)
+    os.rename(staging, target)
+    tmp_link = out_dir / f".{LATEST}.{uuid.uuid4().hex}"
+    os.symlink(Path(VINTAGES) / vintage, tmp_link)
+    os.replace(tmp_link, out_dir / LATEST)  # atomic switch
+    _fsync_dir(out_dir)
+    for name in links:
+        link = out_dir / name
+        if not link.is_symlink():
+            if link.exists():
+                raise FileExistsError(f"{link} exists and is not a valvol link; move it away")
+            os.symlink(Path(LATEST) / name, link)
+    return target
+
+
+def _fsync_tree(path: Path) -> None:
+    for p in path.rglob("*"):
+        if p.is_file():
+            with p.open("rb") as fh:
+                os.fsync(fh.fileno())
+    _fsync_dir(path)
+
+
+def _fsync_dir(path: Path) -> None:
+    fd = os.open(path, os.O_RDONLY)
+    try:
+        os.fsync(fd)
+    finally:
+        os.close(fd)

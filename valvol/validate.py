@@ -1,0 +1,142 @@
+"""Validation at stage boundaries: run pandera lazily and turn failures into located problems.
+
+One place runs every schema (`run_schema`) and maps pandera's failure cases
+back to file, row, economy, item, price basis and period. Rules across rows
+are small functions here returning problems: unique keys (`duplicate_keys`),
+contiguous periods (`period_gaps`), identities (`identity_problems`).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pandera.pandas as pa
+
+from valvol.config import Config
+from valvol.errors import Problem, ValvolError
+from valvol.periods import parse_periods, quarter_index
+from valvol.schemas import input as input_schema
+from valvol.schemas.outputs import identity_residuals
+
+_LOCATE = ["source_file", "source_row", "economy", "item", "period_text", "price_basis"]
+
+
+class StageError(ValvolError):
+    """A derived table broke its schema: a defect or a degenerate input not caught earlier."""
+
+    exit_code = 1
+
+
+def parse_rows(raw: pd.DataFrame) -> pd.DataFrame:
+    """Add parsed columns to the raw text rows: period parts and the numeric value."""
+    out = raw.rename(columns={"period": "period_text", "value": "value_text"}).copy()
+    parts = parse_periods(out["period_text"])
+    out["frequency"] = parts["frequency"]
+    out["year"] = parts["year"]
+    out["quarter"] = parts["quarter"]
+    out["period"] = parts["period"]
+    out["value"] = pd.to_numeric(out["value_text"], errors="coerce").astype("float64")
+    return out
+
+
+def run_schema(schema: pa.DataFrameSchema, df: pd.DataFrame, *, locate: pd.DataFrame | None = None) -> list[Problem]:
+    """Validate ``df`` lazily; return one problem per failing row and check (none when valid).
+
+    ``locate`` (default ``df``) supplies the file, row and series columns of
+    each failing index.
+    """
+    try:
+        schema.validate(df, lazy=True)
+    except pa.errors.SchemaErrors as err:
+        return _problems_from_failures(err.failure_cases, df if locate is None else locate)
+    return []
+
+
+def _problems_from_failures(cases: pd.DataFrame, locate: pd.DataFrame) -> list[Problem]:
+    problems = []
+    cases = cases.drop_duplicates(subset=["index", "check"])
+    for case in cases.itertuples(index=False):
+        reason = str(case.check)
+        column = "" if pd.isna(case.column) else str(case.column)
+        if pd.isna(case.index):  # a whole-column failure (missing column, wrong dtype)
+            problems.append(Problem(reason=f"{column}: {reason}"))
+            continue
+        row = locate.loc[case.index]
+        if case.schema_context == "DataFrameSchema" or column in ("value", "value_text"):
+            shown = row.get("value_text", case.failure_case)  # rules about the value: show it as written
+        else:
+            shown = case.failure_case
+        problems.append(_problem(row, f"{reason} (found {shown!r})"))
+    return problems
+
+
+def _problem(row: pd.Series, reason: str) -> Problem:
+    row_no = row.get("source_row")
+    return Problem(
+        file=str(row.get("source_file", "")),
+        row=None if row_no is None or pd.isna(row_no) else int(row_no),
+        economy=str(row.get("economy", "")),
+        item=str(row.get("item", "")),
+        period=str(row.get("period", "") or row.get("period_text", "")),
+        price_basis=str(row.get("price_basis", "")),
+        reason=reason,
+    )
+
+
+def row_problems(rows: pd.DataFrame, config: Config) -> list[Problem]:
+    """Row-level rules of the input contract (pandera schema `valvol.schemas.input`)."""
+    schema = input_schema.input_rows(config.hierarchy.allowed_items(), config.hierarchy.sign_changing)
+    return run_schema(schema, rows)
+
+
+def duplicate_keys(rows: pd.DataFrame) -> list[Problem]:
+    """Two rows for one (economy, item, price_basis, period), in one file or across files."""
+    key = ["economy", "item", "price_basis", "period"]
+    dup = rows[rows.duplicated(key, keep=False)]
+    if dup.empty:
+        return []
+    first = dup.drop_duplicates(key)[key + ["source_file", "source_row"]]
+    later = dup[dup.duplicated(key, keep="first")].merge(first, on=key, suffixes=("", "_first"))
+    return [
+        _problem(r, f"duplicate of {r['source_file_first']}:{r['source_row_first']} (same economy, item, "
+                    "price_basis and period)")
+        for _, r in later.iterrows()
+    ]
+
+
+def period_gaps(rows: pd.DataFrame) -> list[Problem]:
+    """Quarters (and years) of each series must be contiguous; name the missing span."""
+    key = ["economy", "item", "price_basis", "frequency"]
+    df = rows[key + ["year", "quarter", "source_file"]].copy()
+    df["idx"] = np.where(df["frequency"] == "Q", quarter_index(df["year"], df["quarter"].clip(lower=1)), df["year"])
+    df = df.sort_values(key + ["idx"], kind="mergesort")
+    step = df.groupby(key, sort=False)["idx"].diff()
+    gaps = df[step > 1].assign(prev=df["idx"].shift()[step > 1])
+    out = []
+    for _, g in gaps.iterrows():
+        first, last = int(g["prev"]) + 1, int(g["idx"]) - 1
+        if g["frequency"] == "Q":
+            span = [f"{i // 4}-Q{i % 4 + 1}" for i in (first, last)]
+        else:
+            span = [str(first), str(last)]
+        missing = span[0] if first == last else f"{span[0]} to {span[1]}"
+        out.append(
+            Problem(file=str(g["source_file"]), economy=g["economy"], item=g["item"], price_basis=g["price_basis"],
+                    period=missing, reason=f"series is not contiguous: {missing} missing")
+        )
+    return out
+
+
+def identity_problems(residuals: pd.DataFrame, what: str) -> list[Problem]:
+    """Residual rows beyond tolerance (pandera model ``identity_residuals``), as problems.
+
+    ``what`` says which identity, e.g. "components do not add to the aggregate".
+    """
+    if not run_schema(identity_residuals, residuals):
+        return []
+    bad = residuals[residuals["residual"].abs() > residuals["tolerance"]]
+    return [
+        Problem(economy=r.economy, item=r.item, period=r.period, price_basis=r.price_basis,
+                reason=f"{what}: residual {r.residual:.6g} beyond tolerance {r.tolerance:.6g}")
+        for r in bad.itertuples(index=False)
+    ]
