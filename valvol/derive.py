@@ -59,6 +59,7 @@ def derive_all(con: duckdb.DuckDBPyConnection, config: Config) -> None:
     """Run every derive step on the staged database (see the module docstring)."""
     db.run_sql(con, "int_checks_init")
     derive_volumes(con, config)
+    check_levels(con)
     sign_changing = sorted(config.hierarchy.sign_changing)
     db.run_sql(con, "int_deflators", sign_changing=sign_changing)
     db.run_sql(con, "int_growth", sign_changing=sign_changing)
@@ -67,6 +68,17 @@ def derive_all(con: duckdb.DuckDBPyConnection, config: Config) -> None:
     db.run_sql(con, "int_checks_deflator_jump", jump_pct=config.checks.deflator_jump_pct)
     derive_contributions(con, config)
     derive_price_gaps(con, config)
+
+
+def check_levels(con: duckdb.DuckDBPyConnection) -> None:
+    """Stage boundary: the complete levels panel against its pandera model."""
+    from valvol.schemas.levels import levels as levels_model
+    from valvol.validate import StageError, run_schema
+
+    problems = run_schema(levels_model, _levels(con))
+    if problems:
+        shown = "\n".join(p.render() for p in problems[:20])
+        raise StageError(f"the levels panel breaks its schema ({len(problems)} problem(s)):\n{shown}")
 
 
 def derive_volumes(con: duckdb.DuckDBPyConnection, config: Config) -> None:

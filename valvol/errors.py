@@ -77,6 +77,12 @@ class OutputBusyError(ValvolError):
     exit_code = 3
 
 
+class PublishError(ValvolError):
+    """The output folder holds something valvol must not overwrite."""
+
+    exit_code = 1
+
+
 def _problem_key(p: Problem) -> tuple:
     return (p.file, -1 if p.row is None else p.row, p.economy, p.item, p.price_basis, p.period, p.reason)
 

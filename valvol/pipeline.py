@@ -179,7 +179,7 @@ def publish(work: str | Path, out_dir: str | Path) -> Path:
     manifest = json.loads((work / MANIFEST_FILE).read_text())
     links = [f"{t}.parquet" for t in TABLES] + [MANIFEST_FILE, DB_FILE]
     target = pub.publish(work, out_dir, manifest["vintage"], links)
-    log.info("published vintage %s in %s", manifest["vintage"], out_dir)
+    log.info("published vintage %s in %s", target.name, out_dir)
     return target
 
 
@@ -214,7 +214,7 @@ def result_of(target: Path) -> RebuildResult:
     """Summary of a published vintage, from its manifest."""
     manifest = json.loads((target / MANIFEST_FILE).read_text())
     return RebuildResult(
-        vintage=manifest["vintage"],
+        vintage=target.name,
         path=target,
         row_counts=manifest["row_counts"],
         warnings=manifest["checks"].get("warn", 0),

@@ -27,7 +27,7 @@ from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
 
-from valvol.errors import OutputBusyError
+from valvol.errors import OutputBusyError, PublishError
 
 STAGING = ".staging"
 VINTAGES = "vintages"
@@ -91,22 +91,28 @@ def publish(staging: Path, out_dir: Path, vintage: str, links: list[str]) -> Pat
     ``links`` are file names inside the vintage that get a stable link at the
     top of ``out_dir`` (through ``latest``).
     """
+    for name in links:
+        link = out_dir / name
+        if link.exists() and not link.is_symlink():
+            raise PublishError(f"{link} exists and is not a valvol link; move it away and rebuild")
     vintages = out_dir / VINTAGES
     vintages.mkdir(exist_ok=True)
-    target = vintages / vintage
-    if target.exists():
-        raise FileExistsError(f"vintage {vintage} already exists in {vintages}")
+    target, n = vintages / vintage, 1
+    while target.exists():  # two rebuilds of the same inputs within one second
+        target, n = vintages / f"{vintage}-{n}", n + 1
     _fsync_tree(staging)
     os.rename(staging, target)
+    try:
+        staging.parent.rmdir()  # .staging/ itself, once empty
+    except OSError:
+        pass
     tmp_link = out_dir / f".{LATEST}.{uuid.uuid4().hex}"
-    os.symlink(Path(VINTAGES) / vintage, tmp_link)
+    os.symlink(Path(VINTAGES) / target.name, tmp_link)
     os.replace(tmp_link, out_dir / LATEST)  # atomic switch
     _fsync_dir(out_dir)
     for name in links:
         link = out_dir / name
         if not link.is_symlink():
-            if link.exists():
-                raise FileExistsError(f"{link} exists and is not a valvol link; move it away")
             os.symlink(Path(LATEST) / name, link)
     return target
 
