@@ -39,8 +39,8 @@ def derive_task(accounts_dir: str, work: str) -> str:
 
 
 @task(name="write tables", retries=2, retry_delay_seconds=[1, 5], cache_policy=NO_CACHE)
-def write_task(accounts_dir: str, work: str) -> str:
-    return str(pipeline.write(accounts_dir, work))
+def write_task(accounts_dir: str, work: str, charts: bool, chart_economies: list[str] | None) -> str:
+    return str(pipeline.write(accounts_dir, work, charts=charts, chart_economies=chart_economies))
 
 
 @task(name="publish vintage", cache_policy=NO_CACHE)
@@ -49,7 +49,7 @@ def publish_task(work: str, out_dir: str) -> str:
 
 
 @flow(name="valvol-rebuild", validate_parameters=False)
-def rebuild_flow(accounts_dir: str, out_dir: str):
+def rebuild_flow(accounts_dir: str, out_dir: str, charts: bool = True, chart_economies: list[str] | None = None):
     """Rebuild every table of ``out_dir`` from the accounts folder; publish atomically."""
     out = Path(out_dir)
     with pub.output_lock(out):
@@ -61,7 +61,7 @@ def rebuild_flow(accounts_dir: str, out_dir: str):
                 pub.discard_staging(work)
                 return Failed(message=f"{len(problems)} problem(s) in the accounts", data=problems)
             derive_task(accounts_dir, str(work))
-            write_task(accounts_dir, str(work))
+            write_task(accounts_dir, str(work), charts, chart_economies)
             target = publish_task(str(work), out_dir)
         except BaseException:
             pub.discard_staging(work)

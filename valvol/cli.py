@@ -37,6 +37,12 @@ def _parser() -> argparse.ArgumentParser:
         help="run the same stages without Prefect (no orchestration records; faster start)",
     )
 
+    r.add_argument(
+        "--charts", metavar="CODES", default=None,
+        help="comma-separated economies to chart (default: all, when there are at most ten)",
+    )
+    r.add_argument("--no-charts", action="store_true", help="draw no charts")
+
     c = sub.add_parser("check", help="validate an accounts folder only; write nothing")
     c.add_argument("accounts_dir", type=Path)
     return p
@@ -67,8 +73,10 @@ def _rebuild(args: argparse.Namespace) -> int:
     accounts, out = args.accounts_dir, args.out
     if not accounts.is_dir():
         raise InputError([Problem(file=str(accounts), reason="accounts folder does not exist")])
+    charts = not args.no_charts
+    economies = [e.strip() for e in args.charts.split(",") if e.strip()] if args.charts else None
     if args.no_flow:
-        result = pipeline.rebuild(accounts, out)
+        result = pipeline.rebuild(accounts, out, charts=charts, chart_economies=economies)
         target = result.path
     else:
         from valvol import prefect_env
@@ -76,7 +84,7 @@ def _rebuild(args: argparse.Namespace) -> int:
         prefect_env.configure(out)
         from valvol.flows.rebuild import rebuild_flow
 
-        state = rebuild_flow(str(accounts), str(out), return_state=True)
+        state = rebuild_flow(str(accounts), str(out), charts, economies, return_state=True)
         if state.is_failed():
             data = state.result(raise_on_failure=False)
             if isinstance(data, list):

@@ -148,8 +148,21 @@ def derive(accounts_dir: str | Path, work: str | Path, config: Config | None = N
     return work / DB_FILE
 
 
-def write(accounts_dir: str | Path, work: str | Path, config: Config | None = None) -> Path:
-    """Write each table to ``work/<table>.parquet`` (validated, ordered), then the manifest."""
+def write(
+    accounts_dir: str | Path,
+    work: str | Path,
+    config: Config | None = None,
+    *,
+    charts: bool = True,
+    chart_economies: list[str] | None = None,
+) -> Path:
+    """Write each table to ``work/<table>.parquet`` (validated, ordered), the charts, then the manifest.
+
+    Charts are drawn for ``chart_economies`` (default: every economy, when there are at
+    most ten) unless ``charts`` is False.
+    """
+    from valvol.charts import draw_charts
+
     from valvol.io.writers import write_tables
     from valvol.manifest import build_manifest
 
@@ -162,14 +175,19 @@ def write(accounts_dir: str | Path, work: str | Path, config: Config | None = No
         checks = con.execute('SELECT status, count(*) FROM checks GROUP BY status ORDER BY status').fetchall()
     finally:
         con.close()
+    (work / "charts").mkdir(exist_ok=True)
+    drawn = draw_charts(work, chart_economies) if charts else []
     _timed(work, "write", started)
     timings = json.loads((work / TIMINGS_FILE).read_text())
     (work / TIMINGS_FILE).unlink()
     for name in (ROWS_FILE, READ_PROBLEMS_FILE):
         (work / name).unlink(missing_ok=True)
     manifest = build_manifest(Path(accounts_dir), config, counts, dict(checks), timings)
+    manifest["charts"] = sorted(str(p.relative_to(work)) for p in drawn)
     (work / MANIFEST_FILE).write_text(json.dumps(manifest, indent=2, sort_keys=True) + "\n")
     log.info("wrote %s", ", ".join(f"{t} ({n} rows)" for t, n in counts.items()))
+    if drawn:
+        log.info("drew %d chart file(s) in %s", len(drawn), work / "charts")
     return work / MANIFEST_FILE
 
 
@@ -177,7 +195,7 @@ def publish(work: str | Path, out_dir: str | Path) -> Path:
     """Move the finished work folder into ``out_dir/vintages`` and switch ``latest`` to it."""
     work, out_dir = Path(work), Path(out_dir)
     manifest = json.loads((work / MANIFEST_FILE).read_text())
-    links = [f"{t}.parquet" for t in TABLES] + [MANIFEST_FILE, DB_FILE]
+    links = [f"{t}.parquet" for t in TABLES] + [MANIFEST_FILE, DB_FILE, "charts"]
     target = pub.publish(work, out_dir, manifest["vintage"], links)
     log.info("published vintage %s in %s", target.name, out_dir)
     return target
@@ -190,7 +208,9 @@ def check(accounts_dir: str | Path, work: str | Path) -> int:
     return len(pd.read_parquet(Path(work) / ROWS_FILE))
 
 
-def rebuild(accounts_dir: str | Path, out_dir: str | Path) -> RebuildResult:
+def rebuild(
+    accounts_dir: str | Path, out_dir: str | Path, *, charts: bool = True, chart_economies: list[str] | None = None
+) -> RebuildResult:
     """Run every stage without Prefect and publish atomically (the flow does the same as tasks)."""
     out_dir = Path(out_dir)
     if not Path(accounts_dir).is_dir():
@@ -202,7 +222,7 @@ def rebuild(accounts_dir: str | Path, out_dir: str | Path) -> RebuildResult:
             load(accounts_dir, work)
             validate(accounts_dir, work, config)
             derive(accounts_dir, work, config)
-            write(accounts_dir, work, config)
+            write(accounts_dir, work, config, charts=charts, chart_economies=chart_economies)
             target = publish(work, out_dir)
         except BaseException:
             pub.discard_staging(work)
