@@ -1,9 +1,14 @@
-"""The rebuild flow: load -> validate -> derive -> write -> publish, each a coarse task.
+"""The rebuild flow: load -> validate -> derive (one task per economy) -> write -> publish.
 
-Tasks are thin wrappers of `valvol.pipeline` functions and pass paths only.
+Tasks are thin wrappers of `valvol.pipeline` functions and pass paths only. The
+economies fan out through the flow's task runner: local threads by default, or a
+Dask cluster (`dask_runner`). Each economy works in its own DuckDB file and writes
+parquet; the single write task combines them, so workers never share a database.
+
 Invalid input does not raise inside the flow: the validate task returns the
-problems as data and the flow ends in a Failed state carrying them, so a
-user sees the located problems and no traceback.
+problems as data and the flow ends in a Failed state carrying them, so a user
+sees located problems and no traceback. Unchanged inputs, code and config end the
+flow at once with the latest vintage (``force`` rebuilds anyway).
 """
 
 from __future__ import annotations
@@ -12,35 +17,40 @@ from pathlib import Path
 
 from prefect import flow, task
 from prefect.cache_policies import NO_CACHE
-from prefect.states import Failed
+from prefect.states import Completed, Failed
+from prefect.task_runners import ThreadPoolTaskRunner
 
 from valvol import pipeline
+from valvol.config import load_config
 from valvol.errors import InputError
 from valvol.io import publish as pub
 
+IO_RETRIES = {"retries": 2, "retry_delay_seconds": [1, 5]}
 
-@task(name="load accounts", retries=2, retry_delay_seconds=[1, 5], cache_policy=NO_CACHE)
+
+@task(name="load accounts", cache_policy=NO_CACHE, **IO_RETRIES)
 def load_task(accounts_dir: str, work: str) -> str:
     return str(pipeline.load(accounts_dir, work))
 
 
 @task(name="validate accounts", cache_policy=NO_CACHE)
-def validate_task(accounts_dir: str, work: str) -> list[dict]:
+def validate_task(accounts_dir: str, work: str) -> dict:
     try:
-        pipeline.validate(accounts_dir, work)
+        return {"economies": pipeline.validate(accounts_dir, work), "problems": []}
     except InputError as err:
-        return [p.as_dict() for p in err.problems]
-    return []
+        return {"economies": [], "problems": [p.as_dict() for p in err.problems]}
 
 
-@task(name="derive measures", cache_policy=NO_CACHE)
-def derive_task(accounts_dir: str, work: str) -> str:
-    return str(pipeline.derive(accounts_dir, work))
+@task(name="derive economy", cache_policy=NO_CACHE, task_run_name="derive {economy}")
+def derive_task(accounts_dir: str, work: str, economy: str) -> str:
+    return str(pipeline.derive_economy(accounts_dir, work, economy))
 
 
-@task(name="write tables", retries=2, retry_delay_seconds=[1, 5], cache_policy=NO_CACHE)
-def write_task(accounts_dir: str, work: str, charts: bool, chart_economies: list[str] | None) -> str:
-    return str(pipeline.write(accounts_dir, work, charts=charts, chart_economies=chart_economies))
+@task(name="write tables", cache_policy=NO_CACHE, **IO_RETRIES)
+def write_task(accounts_dir: str, work: str, out_dir: str, label: str | None, charts: bool,
+               chart_economies: list[str] | None) -> str:
+    return str(pipeline.write(accounts_dir, work, out_dir=out_dir, label=label, charts=charts,
+                              chart_economies=chart_economies))
 
 
 @task(name="publish vintage", cache_policy=NO_CACHE)
@@ -48,22 +58,50 @@ def publish_task(work: str, out_dir: str) -> str:
     return str(pipeline.publish(work, out_dir))
 
 
-@flow(name="valvol-rebuild", validate_parameters=False)
-def rebuild_flow(accounts_dir: str, out_dir: str, charts: bool = True, chart_economies: list[str] | None = None):
+@flow(name="valvol-rebuild", validate_parameters=False, task_runner=ThreadPoolTaskRunner(max_workers=2))
+def rebuild_flow(
+    accounts_dir: str,
+    out_dir: str,
+    force: bool = False,
+    label: str | None = None,
+    charts: bool = True,
+    chart_economies: list[str] | None = None,
+):
     """Rebuild every table of ``out_dir`` from the accounts folder; publish atomically."""
     out = Path(out_dir)
     with pub.output_lock(out):
+        same = None if force else pipeline.unchanged_since_latest(accounts_dir, out, load_config(accounts_dir))
+        if same is not None:
+            return Completed(message=f"unchanged since vintage {same.name}", data=str(same))
         work = pub.new_staging_dir(out)
         try:
             load_task(accounts_dir, str(work))
-            problems = validate_task(accounts_dir, str(work))
-            if problems:
+            checked = validate_task(accounts_dir, str(work))
+            if checked["problems"]:
                 pub.discard_staging(work)
-                return Failed(message=f"{len(problems)} problem(s) in the accounts", data=problems)
-            derive_task(accounts_dir, str(work))
-            write_task(accounts_dir, str(work), charts, chart_economies)
+                return Failed(message=f"{len(checked['problems'])} problem(s) in the accounts",
+                              data=checked["problems"])
+            futures = [derive_task.submit(accounts_dir, str(work), e) for e in checked["economies"]]
+            for future in futures:
+                future.result()
+            write_task(accounts_dir, str(work), out_dir, label, charts, chart_economies)
             target = publish_task(str(work), out_dir)
         except BaseException:
             pub.discard_staging(work)
             raise
     return target
+
+
+def dask_runner(address: str | None = None, n_workers: int = 2):
+    """A Prefect task runner on a Dask cluster: ``address`` of an existing scheduler, else a local one.
+
+    The local cluster binds to 127.0.0.1 only (PLATFORM.md 1.7).
+    """
+    from prefect_dask import DaskTaskRunner
+
+    if address:
+        return DaskTaskRunner(address=address)
+    return DaskTaskRunner(
+        cluster_kwargs={"n_workers": n_workers, "threads_per_worker": 1, "processes": True,
+                        "host": "127.0.0.1", "dashboard_address": None}
+    )

@@ -8,14 +8,21 @@ all follow from the same quantities and prices, so the published series are
 internally consistent. The economy, its currency (the tessel) and every number
 are invented.
 
+Two releases come out of the same simulation and the same code path
+(``build_release``): the current release, 2012-Q1 .. 2025-Q4 (``build_accounts``),
+and the release of one quarter earlier, 2012-Q1 .. 2025-Q3
+(``build_earlier_release``), whose last five quarters are first estimates that
+differ from the current release by seeded revisions of quantities and prices.
+
 Run ``python sample_accounts/generate.py`` to rewrite ``accounts.csv`` next to
-this file; the output is byte-identical on every run. Importing the module
-has no side effects. The module is standalone (numpy and pandas only) so that
-it documents the construction on its own.
+this file and ``earlier_release/accounts.csv``; the output is byte-identical on
+every run. Importing the module has no side effects. The module is standalone
+(numpy and pandas only) so that it documents the construction on its own.
 """
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 import numpy as np
@@ -29,10 +36,15 @@ ADJUSTMENT = "S"
 FIRST_SIMULATED_YEAR = 2011  # simulated only: the previous year of 2012, not published
 FIRST_YEAR = 2012
 LAST_YEAR = 2025
+LAST_QUARTER = "2025-Q4"  # last quarter of the current (later) release
+EARLIER_LAST_QUARTER = "2025-Q3"  # last quarter of the release of one quarter earlier
 REFERENCE_YEAR = 2020
 COLUMNS = ["economy", "period", "item", "price_basis", "value", "adjustment", "unit"]
 PRICE_BASES = ["current", "previous_year", "chain_linked"]
-OUTPUT = Path(__file__).resolve().parent / "accounts.csv"
+FOLDER = Path(__file__).resolve().parent
+OUTPUT = FOLDER / "accounts.csv"
+EARLIER_FOLDER = "earlier_release"
+EARLIER_OUTPUT = FOLDER / EARLIER_FOLDER / "accounts.csv"
 
 #: Published items in output order (components before the aggregates using them).
 ITEMS = ["P31_S14", "P3_S15", "P3_S13", "P3", "P51G", "P52", "P53", "P5", "P6", "P7", "YA1", "B1GQ"]
@@ -129,6 +141,22 @@ PRODUCTS = pd.DataFrame(
 )
 # fmt: on
 
+#: Revisions of first estimates (earlier release minus later release, in logs). The last
+#: ``REVISED_QUARTERS`` quarters of a revised release are first estimates. Their errors in
+#: quarterly log-quantity growth are a common (economy-wide) part, an item part and a product
+#: part, each scaled by the horizon weight (h+1)/H, h = 0 the oldest revised quarter, and
+#: cumulated, so the level errors grow toward the latest quarter. Prices are revised by
+#: ``REVISION_PRICE_RATIO`` times as much (own draws); the share of inventories P52 in the
+#: rest of GDP gets an additive error of standard deviation ``REVISION_P52`` (times the weight).
+REVISED_QUARTERS = 5
+REVISION_SEED = 20_120_342  # chosen among SEED + 2 .. SEED + 13 for a typical pattern (README)
+REVISION_COMMON = 0.0016
+REVISION_ITEM = {"P51G": 0.0100}
+REVISION_ITEM_DEFAULT = 0.0012
+REVISION_PRODUCT = 0.0008
+REVISION_PRICE_RATIO = 0.4
+REVISION_P52 = 0.0009
+
 #: Price reference of the sign-changing items: P52 (stocks of manufactured goods) is valued
 #: at the price of imported manufactures, P53 (worked corvite stones) at the ore price.
 SIGN_CHANGING_PRICE = {"P52": ("P7", "imported manufactures"), "P53": ("P6", "corvite ore")}
@@ -141,6 +169,17 @@ def _periods() -> pd.DataFrame:
     quarter = t % 4 + 1
     label = pd.Series(year).astype(str) + "-Q" + pd.Series(quarter).astype(str)
     return pd.DataFrame({"t": t, "year": year, "quarter": quarter, "period": label})
+
+
+def _check_quarter(label: str) -> int:
+    """Quarter index of a release's last quarter; a reference year must be complete."""
+    if not isinstance(label, str) or re.fullmatch(r"\d{4}-Q[1-4]", label) is None:
+        raise ValueError(f"last quarter must be a label YYYY-Qn, got {label!r}")
+    n = int(_quarter_index(pd.Series([label]))[0])
+    first = 4 * (REFERENCE_YEAR - FIRST_SIMULATED_YEAR) + 3
+    if not first <= n < N_QUARTERS:
+        raise ValueError(f"last quarter {label} outside {REFERENCE_YEAR}-Q4 .. {LAST_QUARTER}")
+    return n
 
 
 def _quarter_index(labels: pd.Series) -> np.ndarray:
@@ -248,7 +287,103 @@ def _with_previous_year_prices(products: pd.DataFrame) -> pd.DataFrame:
     return products.merge(uv, on=["item", "product", "year"], how="left", validate="many_to_one")
 
 
-def _unrounded_components(products: pd.DataFrame) -> pd.DataFrame:
+def _shares() -> dict[str, np.ndarray]:
+    """Shares of P52, P53 and YA1 in the rest of GDP (current prices), 2011-Q1 .. 2025-Q4.
+
+    Notes
+    -----
+    P52: a slow cycle of ±0.4% plus a standardised random walk (sd 0.12%); P53: a cycle of
+    ±0.05% plus a random walk (sd 0.02%); YA1: white noise (sd 0.09%) clipped to ±0.28%.
+    """
+    rng = np.random.default_rng(SEED + 1)
+    t = np.arange(N_QUARTERS, dtype=float)
+    ar = np.cumsum(rng.normal(0.0, 1.0, size=(2, N_QUARTERS)), axis=1) * 0.25
+    return {
+        "P52": 0.0040 * np.sin(2 * np.pi * t / 15.0 + 0.6) + 0.0012 * (ar[0] - ar[0].mean()) / ar[0].std(),
+        "P53": 0.0005 * np.sin(2 * np.pi * t / 9.0 + 2.0) + 0.0002 * (ar[1] - ar[1].mean()) / ar[1].std(),
+        "YA1": np.clip(rng.normal(0.0, 0.0009, size=N_QUARTERS), -0.0028, 0.0028),
+    }
+
+
+def _first_estimates(
+    products: pd.DataFrame, shares: dict[str, np.ndarray], last_quarter: str, revision_seed: int
+) -> tuple[pd.DataFrame, dict[str, np.ndarray]]:
+    """Products and shares with the last ``REVISED_QUARTERS`` quarters up to ``last_quarter``
+    replaced by seeded first estimates.
+
+    Notes
+    -----
+    With w_h = (h+1)/H, h = 0 .. H−1 over the revised quarters, the first estimate of product j
+    is log q'_j(h) = log q_j(h) + Σ_{i≤h} w_i·(σ_c·z_c(i) + σ_{item(j)}·z_{item(j)}(i) +
+    σ_p·z_j(i)), z independent standard normal draws; prices alike with all σ times
+    ``REVISION_PRICE_RATIO`` and own draws; the P52 share gets s'(h) = s(h) + w_h·σ_52·z_52(h).
+    Quarters before the window are untouched.
+    """
+    rng = np.random.default_rng(revision_seed)
+    horizon = REVISED_QUARTERS
+    weight = np.arange(1, horizon + 1) / horizon
+    item_codes, item_of = np.unique(PRODUCTS["item"].to_numpy(), return_inverse=True)
+    item_sd = pd.Series(item_codes).map(REVISION_ITEM).fillna(REVISION_ITEM_DEFAULT).to_numpy()
+
+    def log_errors(scale: float) -> np.ndarray:
+        common = rng.normal(0.0, REVISION_COMMON, size=horizon)
+        per_item = rng.normal(0.0, 1.0, size=(len(item_codes), horizon)) * item_sd[:, None]
+        per_product = rng.normal(0.0, REVISION_PRODUCT, size=(len(PRODUCTS), horizon))
+        growth = (common[None, :] + per_item[item_of] + per_product) * weight[None, :]
+        return scale * np.cumsum(growth, axis=1)
+
+    d_log_q, d_log_p = log_errors(1.0), log_errors(REVISION_PRICE_RATIO)
+    d_share_p52 = rng.normal(0.0, REVISION_P52, size=horizon) * weight
+    end = _check_quarter(last_quarter) + 1
+    window = np.arange(end - horizon, end)
+    labels = _periods().set_index("t").loc[window, "period"].to_numpy()
+    errors = pd.DataFrame(
+        {
+            "item": np.repeat(PRODUCTS["item"].to_numpy(), horizon),
+            "product": np.repeat(PRODUCTS["product"].to_numpy(), horizon),
+            "period": np.tile(labels, len(PRODUCTS)),
+            "d_log_q": d_log_q.ravel(),
+            "d_log_p": d_log_p.ravel(),
+        }
+    )
+    merged = products.merge(errors, on=["item", "product", "period"], how="left", validate="one_to_one")
+    revised = products.assign(
+        quantity=products["quantity"].to_numpy() * np.exp(merged["d_log_q"].fillna(0.0).to_numpy()),
+        price=products["price"].to_numpy() * np.exp(merged["d_log_p"].fillna(0.0).to_numpy()),
+    )
+    p52 = shares["P52"].copy()
+    p52[window] += d_share_p52
+    return revised, {**shares, "P52": p52}
+
+
+def release_inputs(
+    last_quarter: str = LAST_QUARTER, revision_seed: int | None = None
+) -> tuple[pd.DataFrame, dict[str, np.ndarray]]:
+    """Product prices and quantities and sign-changing shares of one release, 2011-Q1 .. last.
+
+    Parameters
+    ----------
+    last_quarter
+        Last quarter of the release, ``YYYY-Qn`` between ``REFERENCE_YEAR``-Q4 and 2025-Q4.
+    revision_seed
+        ``None``: the quarters are those of the current release. Otherwise the seed of the
+        first-estimate errors of the last ``REVISED_QUARTERS`` quarters (``_first_estimates``).
+
+    Returns
+    -------
+    tuple
+        The products table of ``simulate_products`` cut at ``last_quarter`` and the shares of
+        P52, P53 and YA1 (arrays over the same quarters).
+    """
+    end = _check_quarter(last_quarter) + 1
+    products, shares = simulate_products(), _shares()
+    if revision_seed is not None:
+        products, shares = _first_estimates(products, shares, last_quarter, revision_seed)
+    keep = _quarter_index(products["period"]) < end
+    return products[keep].reset_index(drop=True), {code: share[:end] for code, share in shares.items()}
+
+
+def _unrounded_components(products: pd.DataFrame, shares: dict[str, np.ndarray]) -> pd.DataFrame:
     """Unrounded quarterly current (``c``) and previous-year-price (``k``) values per component.
 
     Notes
@@ -257,9 +392,9 @@ def _unrounded_components(products: pd.DataFrame) -> pd.DataFrame:
     Sign-changing items, given as shares of the remaining expenditure X (current prices):
     P52 and P53 are valued with a reference product's price relative,
     k = c·P̄_{ref,y−1}/p_ref(s,y); YA1 is deflated by the quarter's Paasche price relative of
-    X, k = c·k_X(s,y)/c_X(s,y). In 2011 (simulated only) k is not defined.
+    X, k = c·k_X(s,y)/c_X(s,y). In 2011 (simulated only) k is not defined. ``shares`` holds one
+    value per quarter of ``products`` (``_shares``, ``release_inputs``).
     """
-    rng = np.random.default_rng(SEED + 1)
     prod = _with_previous_year_prices(products)
     prod["c"] = prod["price"] * prod["quantity"]
     prod["k"] = prod["pbar_prev"] * prod["quantity"]
@@ -272,13 +407,9 @@ def _unrounded_components(products: pd.DataFrame) -> pd.DataFrame:
         .sum(min_count=1)
         .reset_index()
     )
-    t = np.arange(N_QUARTERS, dtype=float)
-    ar = np.cumsum(rng.normal(0.0, 1.0, size=(2, N_QUARTERS)), axis=1) * 0.25
-    share = {
-        "P52": 0.0040 * np.sin(2 * np.pi * t / 15.0 + 0.6) + 0.0012 * (ar[0] - ar[0].mean()) / ar[0].std(),
-        "P53": 0.0005 * np.sin(2 * np.pi * t / 9.0 + 2.0) + 0.0002 * (ar[1] - ar[1].mean()) / ar[1].std(),
-        "YA1": np.clip(rng.normal(0.0, 0.0009, size=N_QUARTERS), -0.0028, 0.0028),
-    }
+    n_quarters = len(core)
+    if any(len(share) != n_quarters for share in shares.values()):
+        raise ValueError(f"shares must hold one value per quarter ({n_quarters})")
     ref_keys = pd.DataFrame(
         [(code, ref_item, ref_product) for code, (ref_item, ref_product) in SIGN_CHANGING_PRICE.items()],
         columns=["code", "item", "product"],
@@ -286,11 +417,11 @@ def _unrounded_components(products: pd.DataFrame) -> pd.DataFrame:
     ref = prod.merge(ref_keys, on=["item", "product"])[["code", "year", "quarter", "price", "pbar_prev"]]
     stocks = pd.DataFrame(
         {
-            "item": np.repeat(list(SIGN_CHANGING_PRICE), N_QUARTERS),
+            "item": np.repeat(list(SIGN_CHANGING_PRICE), n_quarters),
             "year": np.tile(core["year"].to_numpy(), len(SIGN_CHANGING_PRICE)),
             "quarter": np.tile(core["quarter"].to_numpy(), len(SIGN_CHANGING_PRICE)),
             "period": np.tile(core["period"].to_numpy(), len(SIGN_CHANGING_PRICE)),
-            "c": np.concatenate([share[code] for code in SIGN_CHANGING_PRICE])
+            "c": np.concatenate([shares[code] for code in SIGN_CHANGING_PRICE])
             * np.tile(core["c"].to_numpy(), len(SIGN_CHANGING_PRICE)),
         }
     )
@@ -302,7 +433,7 @@ def _unrounded_components(products: pd.DataFrame) -> pd.DataFrame:
     )
     stocks["k"] = stocks["c"] * stocks["pbar_prev"] / stocks["price"]
     ya1 = core[["year", "quarter", "period"]].assign(
-        item="YA1", c=share["YA1"] * core["c"], k=share["YA1"] * core["k"]
+        item="YA1", c=shares["YA1"] * core["c"], k=shares["YA1"] * core["k"]
     )
     cols = ["item", "year", "quarter", "period", "c", "k"]
     out = pd.concat([basket[cols], stocks[cols], ya1[cols]], ignore_index=True)
@@ -326,8 +457,14 @@ def _aggregate(frame: pd.DataFrame, columns: list[str]) -> pd.DataFrame:
     return frame
 
 
-def unrounded_levels() -> pd.DataFrame:
-    """Unrounded quarterly values of every item, 2011-Q1 .. 2025-Q4 (2011 simulated only).
+def unrounded_levels(last_quarter: str = LAST_QUARTER, revision_seed: int | None = None) -> pd.DataFrame:
+    """Unrounded quarterly values of every item of one release, 2011-Q1 .. ``last_quarter``.
+
+    Parameters
+    ----------
+    last_quarter, revision_seed
+        The release, as in ``release_inputs``; the defaults give the current release,
+        2011-Q1 .. 2025-Q4 (2011 simulated only).
 
     Returns
     -------
@@ -336,7 +473,8 @@ def unrounded_levels() -> pd.DataFrame:
         previous year's average prices (NaN in 2011); aggregates as signed sums of the
         unrounded components.
     """
-    return _aggregate(_unrounded_components(simulate_products()), ["c", "k"])
+    products, shares = release_inputs(last_quarter, revision_seed)
+    return _aggregate(_unrounded_components(products, shares), ["c", "k"])
 
 
 def _chain_link(levels: pd.DataFrame) -> pd.DataFrame:
@@ -347,6 +485,8 @@ def _chain_link(levels: pd.DataFrame) -> pd.DataFrame:
     Annual links L_y = K_y / C_{y−1}; CLV_r = C_r, CLV_y = CLV_{y−1}·L_y forward and
     CLV_{y−1} = CLV_y / L_y backward; quarters CLV(s,y) = k(s,y)·CLV_{y−1}/C_{y−1}, so the
     four quarters of y sum to CLV_y. 2011 (simulated) serves as the previous year of 2012.
+    An incomplete last year (a release ending before Q4) has no annual link; its quarters
+    link on the previous complete year like any other, CLV(s,y) = k(s,y)·CLV_{y−1}/C_{y−1}.
 
     References
     ----------
@@ -355,6 +495,7 @@ def _chain_link(levels: pd.DataFrame) -> pd.DataFrame:
     """
     chained = levels[levels["item"].isin(CHAINED)]
     annual = chained.groupby(["item", "year"])[["c", "k"]].sum(min_count=4).reset_index()
+    annual = annual[annual["c"].notna()]  # complete years only
     annual = annual.sort_values(["item", "year"], ignore_index=True)
     prev_c = annual.groupby("item")["c"].shift(1)
     link = (annual["k"] / prev_c).fillna(1.0)  # 1 in 2011: the base of the cumulative product
@@ -374,8 +515,16 @@ def _round(x: pd.Series | np.ndarray) -> np.ndarray:
     return np.round(np.asarray(x, dtype=float), 1) + 0.0
 
 
-def build_accounts() -> pd.DataFrame:
-    """The demo accounts of XQ in the input contract, 2012-Q1 .. 2025-Q4.
+def build_release(last_quarter: str, revision_seed: int | None = None) -> pd.DataFrame:
+    """One release of the demo accounts of XQ in the input contract, 2012-Q1 .. ``last_quarter``.
+
+    Parameters
+    ----------
+    last_quarter
+        Last published quarter, ``YYYY-Qn`` (``REFERENCE_YEAR``-Q4 .. 2025-Q4).
+    revision_seed
+        ``None`` for the quarters of the current release; otherwise the last
+        ``REVISED_QUARTERS`` quarters are seeded first estimates (``release_inputs``).
 
     Returns
     -------
@@ -389,9 +538,10 @@ def build_accounts() -> pd.DataFrame:
     signed sums of the rounded components (P3 = P31_S14 + P3_S15 + P3_S13, P5 = P51G + P52 +
     P53, B1GQ = P3 + P5 + P6 − P7 + YA1), so the identities hold to floating-point
     precision. Chain-linked volumes are computed from the unrounded values, each aggregate
-    from its own sums, then rounded; none is published for P52, P53 or YA1.
+    from its own sums, then rounded; none is published for P52, P53 or YA1. A release ending
+    before Q4 links the quarters of its incomplete last year on the previous year.
     """
-    levels = unrounded_levels()
+    levels = unrounded_levels(last_quarter, revision_seed)
     components = levels[levels["item"].isin(COMPONENTS)]
     clv = _chain_link(levels)
     rounded = components.assign(c=_round(components["c"]), k=_round(components["k"]))
@@ -417,14 +567,49 @@ def build_accounts() -> pd.DataFrame:
     return long.assign(economy=ECONOMY, adjustment=ADJUSTMENT, unit=UNIT)[COLUMNS]
 
 
+def build_accounts() -> pd.DataFrame:
+    """The current (later) release of the demo accounts of XQ, 2012-Q1 .. 2025-Q4.
+
+    Returns
+    -------
+    pandas.DataFrame
+        ``build_release(LAST_QUARTER)``: the quarters of the simulation, unrevised.
+    """
+    return build_release(LAST_QUARTER)
+
+
+def build_earlier_release() -> pd.DataFrame:
+    """The release of one quarter earlier, 2012-Q1 .. 2025-Q3, with first estimates.
+
+    Returns
+    -------
+    pandas.DataFrame
+        ``build_release(EARLIER_LAST_QUARTER, REVISION_SEED)``: identical to the current
+        release up to 2024-Q2; 2024-Q3 .. 2025-Q3 are first estimates that the current
+        release revised.
+    """
+    return build_release(EARLIER_LAST_QUARTER, REVISION_SEED)
+
+
 def to_csv_text(frame: pd.DataFrame) -> str:
     """The CSV text of ``frame`` as committed: one decimal, ``\\n`` line ends."""
     return frame.to_csv(index=False, float_format="%.1f", lineterminator="\n")
 
 
-def main() -> None:
-    """Rewrite ``accounts.csv`` next to this file."""
-    OUTPUT.write_text(to_csv_text(build_accounts()), encoding="utf-8", newline="")
+def main(folder: Path = FOLDER) -> None:
+    """Write both releases: ``folder/accounts.csv`` and ``folder/earlier_release/accounts.csv``.
+
+    Parameters
+    ----------
+    folder
+        Target folder, by default the folder of this file (the committed demo data).
+    """
+    folder = Path(folder)
+    (folder / EARLIER_FOLDER).mkdir(parents=True, exist_ok=True)
+    (folder / OUTPUT.name).write_text(to_csv_text(build_accounts()), encoding="utf-8", newline="")
+    (folder / EARLIER_FOLDER / EARLIER_OUTPUT.name).write_text(
+        to_csv_text(build_earlier_release()), encoding="utf-8", newline=""
+    )
 
 
 if __name__ == "__main__":

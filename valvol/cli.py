@@ -1,8 +1,8 @@
-"""Command line: ``valvol rebuild``, ``valvol check``.
+"""Command line: ``valvol rebuild | check | vintages | prune | revisions | serve``.
 
-Thin by design: parse options, call the flow or a pipeline function, map
-errors to exit codes (0 done, 2 invalid input or config, 3 output folder busy,
-1 anything else). Bad data never shows a traceback.
+Thin by design: parse options, call the flow or a package function, map errors to exit
+codes (0 done, 2 invalid input or config, 3 output folder busy, 1 anything else). Bad
+data never shows a traceback.
 """
 
 from __future__ import annotations
@@ -32,27 +32,48 @@ def _parser() -> argparse.ArgumentParser:
     r = sub.add_parser("rebuild", help="validate the accounts, derive every table and publish a new vintage")
     r.add_argument("accounts_dir", type=Path, help="folder of .csv/.parquet accounts files (+ optional valvol.toml)")
     r.add_argument("--out", type=Path, default=Path("valvol_out"), help="output root (default ./valvol_out)")
-    r.add_argument(
-        "--no-flow", action="store_true",
-        help="run the same stages without Prefect (no orchestration records; faster start)",
-    )
-
-    r.add_argument(
-        "--charts", metavar="CODES", default=None,
-        help="comma-separated economies to chart (default: all, when there are at most ten)",
-    )
+    r.add_argument("--force", action="store_true", help="rebuild even if inputs, code and config are unchanged")
+    r.add_argument("--label", help="a label appended to the vintage name (A-Z a-z 0-9 _ . -)")
+    r.add_argument("--charts", metavar="CODES", default=None,
+                   help="comma-separated economies to chart (default: all, when there are at most ten)")
     r.add_argument("--no-charts", action="store_true", help="draw no charts")
+    r.add_argument("--no-flow", action="store_true",
+                   help="run the same stages without Prefect (no orchestration records; faster start)")
+    r.add_argument("--dask", nargs="?", const="local", metavar="ADDRESS",
+                   help="run the per-economy tasks on a Dask cluster: a scheduler ADDRESS, or a local "
+                        "cluster when no address is given")
 
     c = sub.add_parser("check", help="validate an accounts folder only; write nothing")
     c.add_argument("accounts_dir", type=Path)
+
+    v = sub.add_parser("vintages", help="list the vintages of an output root")
+    v.add_argument("out", type=Path)
+
+    pr = sub.add_parser("prune", help="remove old vintages, keeping the newest N (never latest)")
+    pr.add_argument("out", type=Path)
+    pr.add_argument("--keep", type=int, required=True)
+
+    rv = sub.add_parser("revisions", help="revisions between two vintages (later minus earlier)")
+    rv.add_argument("out", type=Path)
+    rv.add_argument("--earlier", help="vintage name, prefix or label (default: the one before --later)")
+    rv.add_argument("--later", help="vintage name, prefix or label (default: latest)")
+    rv.add_argument("--write", type=Path, metavar="DIR", help="write revisions, summary (and triangle) parquet here")
+    rv.add_argument("--triangle", metavar="ECONOMY:ITEM:MEASURE",
+                    help="revision triangle over every vintage, e.g. XQ:B1GQ:growth_volume_prev_period")
+
+    s = sub.add_parser("serve", help="rebuild on a schedule (a local Prefect server is started and stopped)")
+    s.add_argument("accounts_dir", type=Path)
+    s.add_argument("--out", type=Path, default=Path("valvol_out"))
+    when = s.add_mutually_exclusive_group(required=True)
+    when.add_argument("--cron", help="cron expression, e.g. '0 6 * * *'")
+    when.add_argument("--interval", type=float, metavar="SECONDS")
+    s.add_argument("--name", default="scheduled-rebuild", help="deployment name")
     return p
 
 
 def _setup_logging(quiet: bool) -> None:
-    from rich.logging import RichHandler
-
-    handler = RichHandler(show_time=False, show_path=False, markup=False, rich_tracebacks=False)
-    handler.setFormatter(logging.Formatter("%(message)s"))
+    handler = logging.StreamHandler(sys.stderr)
+    handler.setFormatter(logging.Formatter("valvol: %(message)s"))
     log.handlers[:] = [handler]
     log.setLevel(logging.WARNING if quiet else logging.INFO)
     log.propagate = False
@@ -73,30 +94,44 @@ def _rebuild(args: argparse.Namespace) -> int:
     accounts, out = args.accounts_dir, args.out
     if not accounts.is_dir():
         raise InputError([Problem(file=str(accounts), reason="accounts folder does not exist")])
-    charts = not args.no_charts
-    economies = [e.strip() for e in args.charts.split(",") if e.strip()] if args.charts else None
+    options = {
+        "force": args.force, "label": args.label, "charts": not args.no_charts,
+        "chart_economies": [e.strip() for e in args.charts.split(",") if e.strip()] if args.charts else None,
+    }
     if args.no_flow:
-        result = pipeline.rebuild(accounts, out, charts=charts, chart_economies=economies)
-        target = result.path
+        res = pipeline.rebuild(accounts, out, **options)
     else:
-        from valvol import prefect_env
-
-        prefect_env.configure(out)
-        from valvol.flows.rebuild import rebuild_flow
-
-        state = rebuild_flow(str(accounts), str(out), charts, economies, return_state=True)
-        if state.is_failed():
-            data = state.result(raise_on_failure=False)
-            if isinstance(data, list):
-                raise InputError([Problem(**p) for p in data])
-            if isinstance(data, BaseException):
-                raise data
-            raise ValvolError(f"rebuild failed: {state.message}")
-        target = Path(state.result())
-    res = pipeline.result_of(Path(target))
+        res = _run_flow(accounts, out, args.dask, options)
+    if res.unchanged:
+        print(f"unchanged: inputs, code and config as in vintage {res.vintage}; nothing rebuilt (use --force)")
+        return 0
     counts = ", ".join(f"{k} {v}" for k, v in res.row_counts.items())
     print(f"vintage {res.vintage} published in {out} ({counts}); {res.warnings} check warning(s)")
     return 0
+
+
+def _run_flow(accounts: Path, out: Path, dask: str | None, options: dict):
+    from rich.console import Console
+
+    from valvol import pipeline, prefect_env
+
+    prefect_env.configure(out)
+    from valvol.flows.rebuild import dask_runner, rebuild_flow
+
+    flow = rebuild_flow
+    if dask:
+        flow = rebuild_flow.with_options(task_runner=dask_runner(None if dask == "local" else dask))
+    with Console(stderr=True).status("rebuilding (Prefect flow valvol-rebuild)...", spinner="line"):
+        state = flow(str(accounts), str(out), return_state=True, **options)
+    if state.is_failed():
+        data = state.result(raise_on_failure=False)
+        if isinstance(data, list):
+            raise InputError([Problem(**p) for p in data])
+        if isinstance(data, BaseException):
+            raise data
+        raise ValvolError(f"rebuild failed: {state.message}")
+    target = Path(state.result())
+    return pipeline.result_of(target, unchanged=(state.message or "").startswith("unchanged"))
 
 
 def _check(args: argparse.Namespace) -> int:
@@ -108,11 +143,52 @@ def _check(args: argparse.Namespace) -> int:
     return 0
 
 
+def _vintages(args: argparse.Namespace) -> int:
+    from valvol.vintages import list_vintages
+
+    found = list_vintages(args.out)
+    if not found:
+        print(f"no vintage in {args.out}")
+        return 0
+    print(f"{'vintage':<45} {'created (UTC)':<26} {'rows':>9}  label")
+    for v in found:
+        mark = "  <- latest" if v.latest else ""
+        print(f"{v.name:<45} {v.created_at:<26} {v.rows:>9}  {v.label or ''}{mark}")
+    return 0
+
+
+def _prune(args: argparse.Namespace) -> int:
+    from valvol.vintages import prune
+
+    removed = prune(args.out, args.keep)
+    print(f"removed {len(removed)} vintage(s)" + (": " + ", ".join(removed) if removed else ""))
+    return 0
+
+
+def _revisions(args: argparse.Namespace) -> int:
+    from valvol import revise
+
+    report = revise.compare(args.out, args.earlier, args.later, write=args.write, triangle=args.triangle)
+    print(report)
+    return 0
+
+
+def _serve(args: argparse.Namespace) -> int:
+    from valvol.serve import serve
+
+    serve(args.accounts_dir, args.out, cron=args.cron, interval=args.interval, name=args.name)
+    return 0
+
+
+COMMANDS = {"rebuild": _rebuild, "check": _check, "vintages": _vintages, "prune": _prune,
+            "revisions": _revisions, "serve": _serve}
+
+
 def main(argv: list[str] | None = None) -> int:
     args = _parser().parse_args(argv)
     _setup_logging(args.quiet)
     try:
-        return {"rebuild": _rebuild, "check": _check}[args.command](args)
+        return COMMANDS[args.command](args)
     except InputError as err:
         _print_problems(err.problems)
         return err.exit_code

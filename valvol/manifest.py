@@ -10,12 +10,15 @@ from __future__ import annotations
 import hashlib
 import json
 import platform
+import re
 from datetime import UTC, datetime
-from importlib import metadata
+from functools import cache
+from importlib import metadata, resources
 from pathlib import Path
 
 from valvol import __version__
 from valvol.config import CONFIG_FILE, Config
+from valvol.errors import ConfigError
 from valvol.io.publish import sha256_file
 from valvol.io.readers import account_files
 
@@ -30,10 +33,29 @@ def input_files(accounts_dir: Path) -> list[dict[str, str]]:
     return [{"file": p.name, "sha256": sha256_file(p)} for p in sorted(files)]
 
 
+@cache
+def code_fingerprint() -> str:
+    """SHA-256 over valvol's own installed source (modules, flows, schemas, SQL statements)."""
+    root = resources.files("valvol")
+    h = hashlib.sha256(__version__.encode())
+    for path in sorted(Path(str(root)).rglob("*")):
+        if path.suffix in (".py", ".sql"):
+            h.update(path.as_posix().split("/valvol/")[-1].encode())
+            h.update(path.read_bytes())
+    for sub in ("flows", "schemas", "sql"):  # mapped sub-packages may live elsewhere (editable installs)
+        base = Path(str(resources.files(f"valvol.{sub}")))
+        if not base.is_relative_to(Path(str(root))):
+            for path in sorted(base.rglob("*")):
+                if path.suffix in (".py", ".sql"):
+                    h.update(f"{sub}/{path.name}".encode())
+                    h.update(path.read_bytes())
+    return h.hexdigest()
+
+
 def fingerprint(accounts_dir: Path, config: Config) -> str:
-    """SHA-256 over inputs, configuration and valvol version."""
+    """SHA-256 over inputs, configuration and valvol's code: equal fingerprints, equal tables."""
     payload = json.dumps(
-        {"inputs": input_files(accounts_dir), "config": _config_for_hash(config), "valvol": __version__},
+        {"inputs": input_files(accounts_dir), "config": _config_for_hash(config), "code": code_fingerprint()},
         sort_keys=True,
     )
     return hashlib.sha256(payload.encode()).hexdigest()
@@ -45,8 +67,24 @@ def _config_for_hash(config: Config) -> dict:
     return data
 
 
+LABEL = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.-]{0,39}$")
+
+
+def vintage_name(now: datetime, fp: str, label: str | None) -> str:
+    """``<UTC timestamp>-<fingerprint[:8]>[-<label>]``; names sort in time order."""
+    if label is not None and not LABEL.match(label):
+        raise ConfigError(f"vintage label {label!r}: use 1-40 characters of A-Z, a-z, 0-9, _ . -")
+    return f"{now:%Y%m%dT%H%M%SZ}-{fp[:8]}" + (f"-{label}" if label else "")
+
+
 def build_manifest(
-    accounts_dir: Path, config: Config, counts: dict[str, int], checks: dict[str, int], timings: dict[str, float]
+    accounts_dir: Path,
+    config: Config,
+    counts: dict[str, int],
+    checks: dict[str, int],
+    timings: dict[str, float],
+    *,
+    label: str | None = None,
 ) -> dict:
     """The manifest written last into a vintage."""
     now = datetime.now(UTC)
@@ -58,7 +96,8 @@ def build_manifest(
         except metadata.PackageNotFoundError:
             versions[name] = None
     return {
-        "vintage": f"{now:%Y%m%dT%H%M%SZ}-{fp[:8]}",
+        "vintage": vintage_name(now, fp, label),
+        "label": label,
         "created_at": now.isoformat(timespec="seconds"),
         "fingerprint": fp,
         "accounts_dir": str(accounts_dir.resolve()),

@@ -2,24 +2,32 @@
 
 Stages pass paths, never frames or connections:
 
-``load``      accounts folder -> ``rows.parquet`` (parsed rows, with file and row) + read problems
-``validate``  rows -> ``valvol.duckdb`` (staging tables) or `InputError` with every problem found
-``derive``    staging -> levels, volumes, deflators, growth, contributions, price gaps, checks
-``write``     DuckDB -> one parquet file per table + ``manifest.json`` (written last)
+``load``            accounts folder -> ``rows.parquet`` (parsed rows, with file and row) + read problems
+``validate``        rows -> ``validated.parquet`` and the list of economies, or `InputError`
+                    with every problem found (its own DuckDB file, removed afterwards)
+``derive_economy``  one economy -> ``economies/<E>/<table>.parquet``, in its own DuckDB file:
+                    workers never share a database, so economies can run anywhere
+``write``           every economy's tables -> one ordered parquet file per table, charts,
+                    revisions against the latest vintage, the vintage's ``valvol.duckdb``,
+                    ``manifest.json`` (last)
+``publish``         the work folder becomes ``vintages/<vintage>``; ``latest`` switches atomically
 
-`rebuild` runs them in order without Prefect and publishes atomically
-(`valvol.io.publish`); `valvol.flows.rebuild` runs the same functions as tasks.
+`rebuild` runs them in order without Prefect; `valvol.flows.rebuild` runs the same
+functions as tasks, fanning ``derive_economy`` out over economies.
 """
 
 from __future__ import annotations
 
 import json
 import logging
+import shutil
 import time
 from dataclasses import dataclass
 from pathlib import Path
 
 import pandas as pd
+import pyarrow as pa
+import pyarrow.parquet as pq
 
 from valvol import db
 from valvol.config import Config, load_config
@@ -32,9 +40,12 @@ log = logging.getLogger("valvol")
 
 ROWS_FILE = "rows.parquet"
 READ_PROBLEMS_FILE = "read_problems.json"
+VALIDATED_FILE = "validated.parquet"
+ECONOMIES_DIR = "economies"
 DB_FILE = "valvol.duckdb"
 MANIFEST_FILE = "manifest.json"
 TIMINGS_FILE = "timings.json"
+SCRATCH = (ROWS_FILE, READ_PROBLEMS_FILE, VALIDATED_FILE, TIMINGS_FILE, "validate.duckdb")
 
 #: Output tables, in the order they are written.
 TABLES = (
@@ -46,22 +57,25 @@ TABLES = (
     "deflator_contributions",
     "price_gaps",
 )
+#: Tables of revisions against the previous vintage (empty for a first vintage).
+REVISION_TABLES = ("revisions", "revision_summary")
 
 
 @dataclass(frozen=True)
 class RebuildResult:
-    """What a rebuild produced."""
+    """What a rebuild produced (``unchanged``: inputs, code and config as in ``latest``)."""
 
     vintage: str
     path: Path
     row_counts: dict[str, int]
     warnings: int
+    unchanged: bool = False
 
 
 def _timed(work: Path, stage: str, started: float) -> None:
     path = work / TIMINGS_FILE
     timings = json.loads(path.read_text()) if path.exists() else {}
-    timings[stage] = round(time.perf_counter() - started, 3)
+    timings[stage] = round(timings.get(stage, 0.0) + time.perf_counter() - started, 3)
     path.write_text(json.dumps(timings, indent=1, sort_keys=True))
 
 
@@ -73,14 +87,31 @@ def load(accounts_dir: str | Path, work: str | Path) -> Path:
     rows = parse_rows(raw)
     rows.to_parquet(work / ROWS_FILE, index=False)
     (work / READ_PROBLEMS_FILE).write_text(json.dumps([p.as_dict() for p in problems]))
-    files = rows["source_file"].nunique()
-    log.info("read %d rows from %d file(s) in %s", len(rows), files, accounts_dir)
+    log.info("read %d rows from %d file(s) in %s", len(rows), rows["source_file"].nunique(), accounts_dir)
     _timed(work, "load", started)
     return work / ROWS_FILE
 
 
-def validate(accounts_dir: str | Path, work: str | Path, config: Config | None = None) -> Path:
-    """Check the parsed rows against the input contract and stage them in DuckDB.
+def stage_accounts(con, rows: pd.DataFrame, config: Config) -> None:
+    """Stage rows in DuckDB and derive annual values and aggregates (shared by validate and derive)."""
+    db.register(con, "input_rows", rows)
+    db.run_sql(con, "stg_input")
+    con.unregister("input_rows")
+    edges = pd.DataFrame(config.hierarchy.edges(), columns=["aggregate", "component", "sign"])
+    db.register(con, "hierarchy_edges", edges)
+    db.run_sql(con, "stg_hierarchy")
+    con.unregister("hierarchy_edges")
+    db.run_sql(con, "int_levels_init")
+    db.run_sql(con, "int_annual_from_quarters", annual_rate=config.levels_at_annual_rate)
+    for aggregate in config.hierarchy.order():  # bottom-up, one statement per aggregate
+        db.run_sql(con, "int_aggregate", aggregate=aggregate)
+    tol = {"tol_abs": config.checks.tolerance_abs, "tol_rel": config.checks.tolerance_rel}
+    db.run_sql(con, "int_identity_residuals", **tol)
+    db.run_sql(con, "int_annual_vs_quarters", annual_rate=config.levels_at_annual_rate, **tol)
+
+
+def validate(accounts_dir: str | Path, work: str | Path, config: Config | None = None) -> list[str]:
+    """Check the parsed rows against the input contract; return the economies found.
 
     Every problem is collected (row rules, duplicate keys, gaps, identities,
     quarters against years) and raised together as one `InputError`.
@@ -99,17 +130,9 @@ def validate(accounts_dir: str | Path, work: str | Path, config: Config | None =
     problems += period_gaps(ok.drop_duplicates(["economy", "item", "price_basis", "period"]))
     if problems:
         raise InputError(problems)
-    con = db.connect(work / DB_FILE)
+    con = db.connect(work / "validate.duckdb")
     try:
-        db.register(con, "input_rows", ok)
-        db.run_sql(con, "stg_input")
-        db.register(con, "hierarchy_edges", pd.DataFrame(config.hierarchy.edges(),
-                                                          columns=["aggregate", "component", "sign"]))
-        db.run_sql(con, "stg_hierarchy")
-        _derive_aggregates(con, config)
-        tol = {"tol_abs": config.checks.tolerance_abs, "tol_rel": config.checks.tolerance_rel}
-        db.run_sql(con, "int_identity_residuals", **tol)
-        db.run_sql(con, "int_annual_vs_quarters", annual_rate=config.levels_at_annual_rate, **tol)
+        stage_accounts(con, ok, config)
         problems += identity_problems(con.table("identity_residuals").df(), "components do not add to the aggregate")
         problems += identity_problems(
             con.table("annual_vs_quarters").df(),
@@ -117,35 +140,38 @@ def validate(accounts_dir: str | Path, work: str | Path, config: Config | None =
         )
     finally:
         con.close()
+        (work / "validate.duckdb").unlink(missing_ok=True)
     if problems:
         raise InputError(problems)
-    log.info("validated %d rows: %d economies, %d series", len(ok), ok["economy"].nunique(),
+    ok.to_parquet(work / VALIDATED_FILE, index=False)
+    economies = sorted(ok["economy"].unique())
+    log.info("validated %d rows: %d economies, %d series", len(ok), len(economies),
              len(ok.drop_duplicates(["economy", "item", "price_basis", "frequency"])))
     _timed(work, "validate", started)
-    return work / DB_FILE
+    return economies
 
 
-def _derive_aggregates(con, config: Config) -> None:
-    db.run_sql(con, "int_levels_init")
-    db.run_sql(con, "int_annual_from_quarters", annual_rate=config.levels_at_annual_rate)
-    for aggregate in config.hierarchy.order():
-        db.run_sql(con, "int_aggregate", aggregate=aggregate)
-
-
-def derive(accounts_dir: str | Path, work: str | Path, config: Config | None = None) -> Path:
-    """Derive volumes, deflators, growth rates, contributions, price gaps and checks in DuckDB."""
+def derive_economy(accounts_dir: str | Path, work: str | Path, economy: str, config: Config | None = None) -> Path:
+    """Derive every table of one economy in its own DuckDB file; write its tables as parquet."""
     from valvol import derive as steps
 
-    started = time.perf_counter()
     work = Path(work)
     config = config or load_config(accounts_dir)
-    con = db.connect(work / DB_FILE)
+    folder = work / ECONOMIES_DIR / economy
+    if folder.exists():  # a retried or re-run task starts clean
+        shutil.rmtree(folder)
+    folder.mkdir(parents=True)
+    rows = pd.read_parquet(work / VALIDATED_FILE, filters=[("economy", "==", economy)])
+    con = db.connect(folder / DB_FILE, threads=1)
     try:
+        stage_accounts(con, rows, config)
         steps.derive_all(con, config)
+        for name in TABLES:
+            pq.write_table(db.query_arrow(con, f"out_{name}"), folder / f"{name}.parquet")
     finally:
         con.close()
-    _timed(work, "derive", started)
-    return work / DB_FILE
+    (folder / DB_FILE).unlink()
+    return folder
 
 
 def write(
@@ -153,52 +179,85 @@ def write(
     work: str | Path,
     config: Config | None = None,
     *,
+    out_dir: str | Path | None = None,
+    label: str | None = None,
     charts: bool = True,
     chart_economies: list[str] | None = None,
 ) -> Path:
-    """Write each table to ``work/<table>.parquet`` (validated, ordered), the charts, then the manifest.
+    """Combine the economies' tables, validate and write them, draw charts, compare with ``latest``.
 
-    Charts are drawn for ``chart_economies`` (default: every economy, when there are at
-    most ten) unless ``charts`` is False.
+    Writes ``work/<table>.parquet`` (one ordered file per table), ``work/valvol.duckdb``
+    holding the same tables, ``work/charts/``, the revisions against the latest vintage
+    of ``out_dir`` (when there is one) and, last, ``manifest.json``.
     """
     from valvol.charts import draw_charts
-
     from valvol.io.writers import write_tables
     from valvol.manifest import build_manifest
 
     started = time.perf_counter()
     work = Path(work)
     config = config or load_config(accounts_dir)
-    con = db.connect(work / DB_FILE)
-    try:
-        counts = write_tables(con, work, TABLES)
-        checks = con.execute('SELECT status, count(*) FROM checks GROUP BY status ORDER BY status').fetchall()
-    finally:
-        con.close()
+    economies = sorted(p.name for p in (work / ECONOMIES_DIR).iterdir()) if (work / ECONOMIES_DIR).exists() else []
+    tables = {
+        name: pa.concat_tables([pq.read_table(work / ECONOMIES_DIR / e / f"{name}.parquet") for e in economies])
+        for name in TABLES
+    }
+    revisions = _revisions_against_latest(Path(out_dir), tables) if out_dir is not None else {}
+    counts = write_tables(work, {**tables, **revisions})
+    checks = tables["checks"].column("status").to_pandas().value_counts().to_dict()
+    shutil.rmtree(work / ECONOMIES_DIR, ignore_errors=True)
     (work / "charts").mkdir(exist_ok=True)
     drawn = draw_charts(work, chart_economies) if charts else []
     _timed(work, "write", started)
     timings = json.loads((work / TIMINGS_FILE).read_text())
-    (work / TIMINGS_FILE).unlink()
-    for name in (ROWS_FILE, READ_PROBLEMS_FILE):
+    for name in SCRATCH:
         (work / name).unlink(missing_ok=True)
-    manifest = build_manifest(Path(accounts_dir), config, counts, dict(checks), timings)
+    manifest = build_manifest(Path(accounts_dir), config, counts, checks, timings, label=label)
     manifest["charts"] = sorted(str(p.relative_to(work)) for p in drawn)
+    manifest["revised_against"] = revisions and json.loads(
+        (Path(out_dir) / pub.LATEST / MANIFEST_FILE).read_text())["vintage"] or None
     (work / MANIFEST_FILE).write_text(json.dumps(manifest, indent=2, sort_keys=True) + "\n")
     log.info("wrote %s", ", ".join(f"{t} ({n} rows)" for t, n in counts.items()))
     if drawn:
-        log.info("drew %d chart file(s) in %s", len(drawn), work / "charts")
+        log.info("drew %d chart file(s)", len(drawn))
     return work / MANIFEST_FILE
+
+
+def _revisions_against_latest(out_dir: Path, tables: dict[str, pa.Table]) -> dict[str, pa.Table]:
+    """Revisions of these tables against the latest published vintage (none for a first one)."""
+    from valvol.methods.revisions import revision_summary, revisions
+
+    latest = out_dir / pub.LATEST
+    if not (latest / MANIFEST_FILE).exists():
+        return {}
+    earlier = {t: pd.read_parquet(latest / f"{t}.parquet") for t in TABLES if (latest / f"{t}.parquet").exists()}
+    revs = revisions(earlier, {t: tbl.to_pandas() for t, tbl in tables.items()})
+    return {
+        "revisions": pa.Table.from_pandas(revs, preserve_index=False),
+        "revision_summary": pa.Table.from_pandas(revision_summary(revs), preserve_index=False),
+    }
 
 
 def publish(work: str | Path, out_dir: str | Path) -> Path:
     """Move the finished work folder into ``out_dir/vintages`` and switch ``latest`` to it."""
     work, out_dir = Path(work), Path(out_dir)
     manifest = json.loads((work / MANIFEST_FILE).read_text())
-    links = [f"{t}.parquet" for t in TABLES] + [MANIFEST_FILE, DB_FILE, "charts"]
+    links = [f"{t}.parquet" for t in TABLES + REVISION_TABLES] + [MANIFEST_FILE, DB_FILE, "charts"]
     target = pub.publish(work, out_dir, manifest["vintage"], links)
     log.info("published vintage %s in %s", target.name, out_dir)
     return target
+
+
+def unchanged_since_latest(accounts_dir: str | Path, out_dir: str | Path, config: Config) -> Path | None:
+    """The latest vintage when it was built from identical inputs, code and config; else None."""
+    from valvol.manifest import fingerprint
+
+    manifest = Path(out_dir) / pub.LATEST / MANIFEST_FILE
+    if not manifest.exists():
+        return None
+    if json.loads(manifest.read_text()).get("fingerprint") != fingerprint(Path(accounts_dir), config):
+        return None
+    return (Path(out_dir) / pub.LATEST).resolve()
 
 
 def check(accounts_dir: str | Path, work: str | Path) -> int:
@@ -209,20 +268,33 @@ def check(accounts_dir: str | Path, work: str | Path) -> int:
 
 
 def rebuild(
-    accounts_dir: str | Path, out_dir: str | Path, *, charts: bool = True, chart_economies: list[str] | None = None
+    accounts_dir: str | Path,
+    out_dir: str | Path,
+    *,
+    force: bool = False,
+    label: str | None = None,
+    charts: bool = True,
+    chart_economies: list[str] | None = None,
 ) -> RebuildResult:
     """Run every stage without Prefect and publish atomically (the flow does the same as tasks)."""
     out_dir = Path(out_dir)
     if not Path(accounts_dir).is_dir():
         raise InputError([Problem(file=str(accounts_dir), reason="accounts folder does not exist")])
     with pub.output_lock(out_dir):
+        config = load_config(accounts_dir)
+        same = None if force else unchanged_since_latest(accounts_dir, out_dir, config)
+        if same is not None:
+            log.info("inputs, code and config unchanged since vintage %s: nothing to do", same.name)
+            return result_of(same, unchanged=True)
         work = pub.new_staging_dir(out_dir)
         try:
-            config = load_config(accounts_dir)
             load(accounts_dir, work)
-            validate(accounts_dir, work, config)
-            derive(accounts_dir, work, config)
-            write(accounts_dir, work, config, charts=charts, chart_economies=chart_economies)
+            for economy in validate(accounts_dir, work, config):  # fan-out: one economy at a time here
+                started = time.perf_counter()
+                derive_economy(accounts_dir, work, economy, config)
+                _timed(work, "derive", started)
+            write(accounts_dir, work, config, out_dir=out_dir, label=label, charts=charts,
+                  chart_economies=chart_economies)
             target = publish(work, out_dir)
         except BaseException:
             pub.discard_staging(work)
@@ -230,7 +302,7 @@ def rebuild(
     return result_of(target)
 
 
-def result_of(target: Path) -> RebuildResult:
+def result_of(target: Path, unchanged: bool = False) -> RebuildResult:
     """Summary of a published vintage, from its manifest."""
     manifest = json.loads((target / MANIFEST_FILE).read_text())
     return RebuildResult(
@@ -238,4 +310,5 @@ def result_of(target: Path) -> RebuildResult:
         path=target,
         row_counts=manifest["row_counts"],
         warnings=manifest["checks"].get("warn", 0),
+        unchanged=unchanged,
     )

@@ -1,0 +1,3 @@
+-- Output: the published table levels, stored in the vintage's own database for SQL users
+-- (the same rows, in the same order, as levels.parquet).
+CREATE OR REPLACE TABLE levels AS SELECT * FROM published_rows;

@@ -1,0 +1,3 @@
+-- Output: the published table price_gaps, stored in the vintage's own database for SQL users
+-- (the same rows, in the same order, as price_gaps.parquet).
+CREATE OR REPLACE TABLE price_gaps AS SELECT * FROM published_rows;

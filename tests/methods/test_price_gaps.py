@@ -1,0 +1,387 @@
+"""Tests of valvol.methods.price_gaps (terms of trade, trading gain, real GDI, growth gaps, CPI).
+
+External oracle: UK Office for National Statistics, Quarterly National Accounts dataset,
+release of 31 March 2023 (tests/reference_data/uk_ons_qna_2023-03-31.csv, provenance in
+tests/reference_data/README.md): published deflator growth of households' consumption, GDP,
+exports and imports (1 decimal each). The other checks are properties [DERIVED] of
+METHODS.md sections 5 and 6 (ESA 95 paras 10.57-10.59).
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from valvol.errors import ConfigError, InputError
+from valvol.frames import LEVEL_COLUMNS, period_label
+from valvol.hierarchy import Hierarchy
+from valvol.methods.deflators import deflator_growth, implicit_deflators
+from valvol.methods.price_gaps import MEASURE_COLUMNS, NUMERAIRES, price_gaps
+
+UK_FILE = Path(__file__).resolve().parents[1] / "reference_data" / "uk_ons_qna_2023-03-31.csv"
+UK_POSITIVE = ["P31_S14", "P3_S15", "P3_S13", "P51G", "P6", "P7"]
+GAP_MEASURES = ["gap_gdp_vs_domestic_demand", "gap_export_price_part", "gap_import_price_part", "gap_other_part"]
+
+
+# --- panel builders (test helpers) -----------------------------------------------------------
+
+
+def rows_of(economy, item, basis, freq, years, quarters, values):
+    return pd.DataFrame({"economy": economy, "item": item, "price_basis": basis, "frequency": freq,
+                         "year": np.asarray(years, dtype="int64"), "quarter": np.asarray(quarters, dtype="int64"),
+                         "value": np.asarray(values, dtype="float64")})
+
+
+def make_panel(prices, quantities, spec=(), *, first_year=2000, ref_year=2000, economy="XX"):
+    """Quarterly and annual current, previous-year-price and annual-overlap chained values.
+
+    PYP = quantity x unit value of the previous year (first year: its own), QNA 2017 ch. 8;
+    CLV_y = CLV_{y-1} K_y / C_{y-1}, CLV_r = C_r, CLV(s, y) = k(s, y) CLV_y / K_y (METHODS.md
+    2.2). ``spec``: bottom-up (aggregate, [(item, sign), ...]) summed at current and
+    previous-year prices. Series with a non-positive value get no chained rows.
+    """
+    n = len(next(iter(prices.values())))
+    yi = np.arange(n) // 4
+    years, quarters = first_year + yi, np.arange(n) % 4 + 1
+    ck = {}
+    for it in prices:
+        p, q = np.asarray(prices[it], float), np.asarray(quantities[it], float)
+        unit = np.bincount(yi, p * q) / np.bincount(yi, q)
+        ck[it] = (p * q, np.r_[unit[0], unit[:-1]][yi] * q)
+    for agg, comps in spec:
+        ck[agg] = tuple(sum(s * ck[i][j] for i, s in comps) for j in (0, 1))
+    cols: dict[str, list] = {"item": [], "price_basis": [], "frequency": [], "year": [], "quarter": [], "value": []}
+
+    def add(item, basis, freq, yrs, qtrs, values):
+        for key, v in zip(cols, (item, basis, freq, yrs, qtrs, values), strict=True):
+            cols[key].append(np.broadcast_to(np.asarray(v), (len(values),)))
+
+    ay = first_year + np.arange(yi[-1] + 1)
+    zero = np.zeros(len(ay), dtype="int64")
+    for it, (c, k) in ck.items():
+        ca, ka = np.bincount(yi, c), np.bincount(yi, k)
+        add(it, "current", "Q", years, quarters, c)
+        add(it, "previous_year", "Q", years, quarters, k)
+        add(it, "current", "A", ay, zero, ca)
+        add(it, "previous_year", "A", ay, zero, ka)
+        if (c > 0).all() and (k > 0).all():
+            va = np.cumprod(np.r_[1.0, ka[1:] / ca[:-1]])
+            va *= ca[ref_year - first_year] / va[ref_year - first_year]
+            add(it, "chain_linked", "Q", years, quarters, k * (va / ka)[yi])
+            add(it, "chain_linked", "A", ay, zero, va)
+    lv = pd.DataFrame({key: np.concatenate(v) for key, v in cols.items()})
+    lv.insert(0, "economy", economy)
+    lv = lv.astype({"item": "str", "price_basis": "str", "frequency": "str", "year": "int64", "quarter": "int64",
+                    "value": "float64"})
+    lv["period"] = period_label(lv["year"], lv["quarter"]).to_numpy()
+    return lv[LEVEL_COLUMNS]
+
+
+SPEC = [("P3", [("P31_S14", 1), ("P3_S13", 1)]), ("P5", [("P51G", 1), ("P52", 1)]),
+        ("B1GQ", [("P3", 1), ("P5", 1), ("P6", 1), ("P7", -1), ("YA1", 1)]),
+        ("P3_P5", [("P3", 1), ("P5", 1)]), ("DFD_CHECK", [("P3", 1), ("P51G", 1)])]
+HIER = Hierarchy.from_mapping({"P3": ["P31_S14", "P3_S13"], "P5": ["P51G", "P52"],
+                               "B1GQ": ["P3", "P5", "P6", "-P7", "YA1"]})
+
+
+def economy_data(seed, n_years=3):
+    """Random prices and quantities; P52 and YA1 change sign (priced at 1)."""
+    rng = np.random.default_rng(seed)
+    n = 4 * n_years
+    items = ["P31_S14", "P3_S13", "P51G", "P6", "P7"]
+    prices = {i: np.exp(np.cumsum(rng.normal(0.01, 0.04, n))) for i in items}
+    quantities = {i: 100 * np.exp(np.cumsum(rng.normal(0.005, 0.05, n))) for i in items}
+    quantities["P31_S14"] *= 2.0
+    for i in ("P52", "YA1"):
+        prices[i], quantities[i] = np.ones(n), rng.normal(0.0, 3.0, n)
+    return prices, quantities
+
+
+def wide(out: pd.DataFrame) -> pd.DataFrame:
+    return out.pivot_table(index=["period", "horizon"], columns="measure", values="value")
+
+
+# --- terms of trade and trading gain --------------------------------------------------------
+
+
+@settings(max_examples=10, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1), delta=st.floats(0.01, 0.5), numeraire=st.sampled_from(NUMERAIRES))
+def test_property_import_price_rise_with_and_without_pass_through(seed, delta, numeraire):
+    """Volumes fixed; in 2002-Q4 import prices rise by delta (METHODS.md 6, DERIVED).
+
+    Full pass-through (extra import bill = extra consumption bill): consumption deflator
+    up, GDP deflator unchanged, trading gain and terms of trade down. No pass-through: GDP
+    deflator down, trading gain down.
+    """
+    prices, quantities = economy_data(seed)
+    shocked_m = prices["P7"].copy()
+    shocked_m[-1] *= 1 + delta
+    extra = (shocked_m[-1] - prices["P7"][-1]) * quantities["P7"][-1]
+    full_c = prices["P31_S14"].copy()
+    full_c[-1] += extra / quantities["P31_S14"][-1]
+    lv = pd.concat([make_panel(prices, quantities, SPEC, economy="BASE"),
+                    make_panel(prices | {"P7": shocked_m, "P31_S14": full_c}, quantities, SPEC, economy="FULL"),
+                    make_panel(prices | {"P7": shocked_m}, quantities, SPEC, economy="NONE")], ignore_index=True)
+    d = implicit_deflators(lv, hierarchy=HIER)
+    d = d[d["period"].isin(["2002-Q4", "2002"]) & d["item"].isin(["P31_S14", "B1GQ"])]
+    d = d.pivot_table(index="period", columns=["economy", "item"], values="deflator")
+    assert (d["FULL", "P31_S14"] > d["BASE", "P31_S14"]).all()
+    np.testing.assert_allclose(d["FULL", "B1GQ"], d["BASE", "B1GQ"], rtol=1e-12)
+    assert (d["NONE", "B1GQ"] < d["BASE", "B1GQ"]).all()
+    out = price_gaps(lv, hierarchy=HIER, numeraire=numeraire)
+    level = out[out["period"].isin(["2002-Q4", "2002"]) & out["horizon"].eq("")].pivot_table(
+        index="period", columns=["economy", "measure"], values="value")
+    for case in ("FULL", "NONE"):
+        assert (level[case, "trading_gain"] < level["BASE", "trading_gain"]).all()
+        assert (level[case, "terms_of_trade"] < level["BASE", "terms_of_trade"]).all()
+    earlier = out[out["period"] == "2002-Q3"].set_index(["economy", "measure", "horizon"])["value"]
+    pd.testing.assert_series_equal(earlier["FULL"], earlier["BASE"], rtol=1e-12)
+
+
+@settings(max_examples=12, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1), ref=st.integers(2000, 2002), numeraire=st.sampled_from(NUMERAIRES),
+       explicit=st.booleans())
+def test_property_trading_gain_zero_in_reference_year(seed, ref, numeraire, explicit):
+    """T = 0 in the reference year (annual) when all deflators equal 1 there (METHODS.md 5)."""
+    prices, quantities = economy_data(seed)
+    lv = make_panel(prices, quantities, SPEC, ref_year=2001 if explicit else ref)
+    out = price_gaps(lv, hierarchy=HIER, numeraire=numeraire, reference_year=ref if explicit else None)
+    a = out[(out["frequency"] == "A") & (out["year"] == ref)].set_index("measure")["value"]
+    gdp = lv[(lv["item"] == "B1GQ") & (lv["price_basis"] == "current") & (lv["period"] == str(ref))]
+    gdp_current = gdp["value"].item()
+    assert abs(a["trading_gain"]) < 1e-9 * gdp_current
+    assert a["terms_of_trade"] == pytest.approx(100.0, rel=1e-12)
+    assert a["real_gdi"] == pytest.approx(gdp_current, rel=1e-12)
+    q = out[(out["frequency"] == "Q") & (out["measure"] == "trading_gain")]
+    assert q["value"].abs().max() > 0  # quarterly T is not zero in general
+
+
+def test_trading_gain_closed_forms_and_final_demand_numeraire():
+    """P = P_m: T = (X/P_x)(P_x/P_m - 1); P = P_x: T = (M/P_m)(1 - P_m/P_x) (METHODS.md 5,
+    DERIVED); the final-demand numeraire equals the implicit deflator of P3 + P51G chained by
+    annual overlap (here an explicit aggregate DFD_CHECK of the test panel)."""
+    prices, quantities = economy_data(5)
+    lv = make_panel(prices, quantities, SPEC, ref_year=2001)
+    w = lv.pivot_table(index=["period", "item"], columns="price_basis", values="value").reset_index()
+    w = w.pivot(index="period", columns="item")
+    x, m = w[("current", "P6")], w[("current", "P7")]
+    px, pm = x / w[("chain_linked", "P6")], m / w[("chain_linked", "P7")]
+    p_dfd = w[("current", "DFD_CHECK")] / w[("chain_linked", "DFD_CHECK")]
+    expect = {"import": (x / px) * (px / pm - 1), "export": (m / pm) * (1 - pm / px),
+              "trade_average": (x - m) / ((px + pm) / 2) - (x / px - m / pm),
+              "domestic_final_demand": (x - m) / p_dfd - (x / px - m / pm)}
+    for numeraire, e in expect.items():
+        out = price_gaps(lv, hierarchy=HIER, numeraire=numeraire)
+        got = out[out["measure"] == "trading_gain"].set_index("period")["value"]
+        np.testing.assert_allclose(got.sort_index(), e.reindex(got.index).sort_index(), rtol=1e-10, atol=1e-9)
+    out = price_gaps(lv, hierarchy=HIER)
+    assert list(out.columns) == MEASURE_COLUMNS
+    assert set(out.loc[out["measure"].isin(["terms_of_trade", "trading_gain", "real_gdi"]), "horizon"]) == {""}
+    tot = out[out["measure"] == "terms_of_trade"].set_index("period")["value"]
+    np.testing.assert_allclose(tot.sort_index(), (100 * px / pm).reindex(tot.index).sort_index(), rtol=1e-12)
+    gdi = out[out["measure"] == "real_gdi"].set_index("period")["value"]
+    gain = out[out["measure"] == "trading_gain"].set_index("period")["value"]
+    np.testing.assert_allclose(gdi - gain, w[("chain_linked", "B1GQ")].reindex(gdi.index), rtol=1e-12)
+
+
+def test_numeraire_and_reference_year_errors():
+    prices, quantities = economy_data(2)
+    lv = make_panel(prices, quantities, SPEC)
+    with pytest.raises(ConfigError):
+        price_gaps(lv, hierarchy=HIER, numeraire="harmonic")
+    off = lv.copy()
+    off.loc[(off["item"] == "B1GQ") & (off["price_basis"] == "chain_linked"), "value"] *= 1.1
+    with pytest.raises(InputError) as err:
+        price_gaps(off, hierarchy=HIER, numeraire="domestic_final_demand")
+    assert [(p.economy, p.item) for p in err.value.problems] == [("XX", "B1GQ")]
+    assert len(price_gaps(off, hierarchy=HIER, numeraire="domestic_final_demand", reference_year=2001))
+    with pytest.raises(InputError):
+        price_gaps(lv, hierarchy=HIER, reference_year=1990)
+
+
+# --- growth gaps ---------------------------------------------------------------------------
+
+
+@settings(max_examples=10, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1))
+def test_property_gap_split_adds_exactly_and_matches_deflator_growth(seed):
+    """gap = export part + import part + other part, to 1e-9, every horizon (METHODS.md 6);
+    the gaps equal differences of implicit-deflator growth rates of annual-overlap data."""
+    prices, quantities = economy_data(seed)
+    lv = make_panel(prices, quantities, SPEC)
+    g = wide(price_gaps(lv, hierarchy=HIER))
+    split = g["gap_export_price_part"] + g["gap_import_price_part"] + g["gap_other_part"]
+    np.testing.assert_allclose(split, g["gap_gdp_vs_domestic_demand"], atol=1e-9)
+    growth = deflator_growth(implicit_deflators(lv, hierarchy=HIER)).pivot_table(
+        index=["period", "horizon"], columns="item", values="pct")
+    m = g.join(growth, how="inner")
+    assert len(m) == 2 * 2 + 11 + 8
+    np.testing.assert_allclose(m["gap_gdp_vs_domestic_demand"], m["B1GQ"] - m["P3_P5"], atol=1e-9)
+    np.testing.assert_allclose(m["gap_household_vs_gdp"], m["P31_S14"] - m["B1GQ"], atol=1e-9)
+
+
+def test_gap_annual_k_share_formula_and_derived_domestic_demand():
+    """Annual link: pi_GDP - pi_DD = w_X (pi_X - pi_DD) - w_M (pi_M - pi_DD) + other, w = K_j/K_GDP
+    (METHODS.md 6); without a P3_P5 item the domestic demand is P3 + P5 (same result)."""
+    prices, quantities = economy_data(9)
+    lv = make_panel(prices, quantities, SPEC)
+    g = wide(price_gaps(lv, hierarchy=HIER))
+    a = lv[(lv["frequency"] == "A") & (lv["year"] == 2002)].pivot(index="item", columns="price_basis", values="value")
+    c, k = a["current"], a["previous_year"]
+    pi = 100 * (c / k - 1)
+    wx, wm = k["P6"] / k["B1GQ"], k["P7"] / k["B1GQ"]
+    row = g.loc[("2002", "prev_year")]
+    assert row["gap_export_price_part"] == pytest.approx(wx * (pi["P6"] - pi["P3_P5"]), abs=1e-10)
+    assert row["gap_import_price_part"] == pytest.approx(-wm * (pi["P7"] - pi["P3_P5"]), abs=1e-10)
+    other = 100 * (c["YA1"] - k["YA1"] * c["P3_P5"] / k["P3_P5"]) / k["B1GQ"]
+    assert row["gap_other_part"] == pytest.approx(other, abs=1e-10)
+    derived = wide(price_gaps(lv[lv["item"] != "P3_P5"], hierarchy=HIER))
+    pd.testing.assert_frame_equal(derived[GAP_MEASURES], g[GAP_MEASURES], rtol=1e-10, atol=1e-10)
+    no_pyp = lv[~((lv["item"] == "P3_P5") & (lv["price_basis"] == "previous_year"))]  # filled from P3 + P5
+    filled = wide(price_gaps(no_pyp, hierarchy=HIER))
+    pd.testing.assert_frame_equal(filled[GAP_MEASURES], g[GAP_MEASURES], rtol=1e-10, atol=1e-10)
+
+
+# --- UK release ----------------------------------------------------------------------------
+
+
+def uk_release() -> pd.DataFrame:
+    d = pd.read_csv(UK_FILE, dtype={"period": str})
+    d["year"] = d["period"].str[:4].astype("int64")
+    d["quarter"] = np.where(d["period"].str.contains("Q"), d["period"].str[-1], "0").astype("int64")
+    d["frequency"] = np.where(d["quarter"] > 0, "Q", "A")
+    return d
+
+
+def uk_panel(d: pd.DataFrame) -> pd.DataFrame:
+    """Current prices, chained volumes and derived previous-year prices of the release.
+
+    As the reference README explains: PYP(i,t) = CVM(i,t) CP(i,y-1)/CVM(i,y-1) for GDP and
+    the positive components; P52 and P53 at GDP's deflator of y-1; YA1 closes the identity.
+    P3 and P5 are summed; the published P3_P5 is not used (domestic demand = P3 + P5).
+    """
+    basis = {"current_prices": "current", "chain_linked_volume": "chain_linked"}
+    items = ["B1GQ", *UK_POSITIVE, "P52", "P53", "YA1"]
+    x = d[d["measure"].isin(basis) & d["item"].isin(items)].assign(price_basis=lambda t: t["measure"].map(basis))
+    w = x.pivot_table(index=["frequency", "year", "quarter"], columns=["price_basis", "item"], values="value")
+    cp, cvm = w["current"], w["chain_linked"]
+    annual = (cp / cvm).xs("A", level="frequency").droplevel("quarter")
+    defl = annual.reindex(w.index.get_level_values("year") - 1).set_axis(w.index)
+    pyp = pd.DataFrame({i: cvm[i] * defl[i] for i in ["B1GQ", *UK_POSITIVE]}
+                       | {i: cvm[i] * defl["B1GQ"] for i in ["P52", "P53"]})
+    cur = cp[items].copy()
+    for t in (cur, pyp):
+        t["YA1"] = t["B1GQ"] - t[UK_POSITIVE[:-1] + ["P52", "P53"]].sum(axis=1) + t["P7"]
+        t["P3"] = t["P31_S14"] + t["P3_S15"] + t["P3_S13"]
+        t["P5"] = t["P51G"] + t["P52"] + t["P53"]
+        t.columns.name = "item"
+    long = pd.concat([t.stack().rename("value").reset_index().assign(price_basis=b)
+                      for b, t in (("current", cur), ("previous_year", pyp))], ignore_index=True)
+    lv = pd.concat([long.assign(economy="UK"), x[x["price_basis"] == "chain_linked"]], ignore_index=True)
+    lv["period"] = period_label(lv["year"], lv["quarter"]).to_numpy()
+    return lv[LEVEL_COLUMNS].dropna().reset_index(drop=True)
+
+
+@pytest.fixture(scope="module")
+def uk():
+    d = uk_release()
+    lv = uk_panel(d)
+    return d, lv, price_gaps(lv, hierarchy=Hierarchy.default())
+
+
+def uk_growth(d, item, horizon, frequency=None):
+    rows = d[(d["item"] == item) & (d["measure"] == f"pct_change_deflator_{horizon}")]
+    if frequency is not None:
+        rows = rows[rows["frequency"] == frequency]
+    return rows.set_index("period")["value"]
+
+
+@pytest.mark.parametrize("horizon", ["prev_period", "prev_year"])
+def test_uk_household_vs_gdp_gap_matches_published_growth(uk, horizon):
+    """ONS QNA 31 Mar 2023: published deflator growth of P31_S14 minus B1GQ's (each 1
+    decimal): tolerance 0.1 + 1e-9."""
+    d, _, out = uk
+    gap = out[(out["measure"] == "gap_household_vs_gdp") & (out["horizon"] == horizon)].set_index("period")["value"]
+    pub = (uk_growth(d, "P31_S14", horizon) - uk_growth(d, "B1GQ", horizon)).dropna()
+    m = pd.concat([gap, pub], axis=1, join="inner", keys=["ours", "pub"])
+    assert len(m) >= 100
+    assert (m["ours"] - m["pub"]).abs().max() <= 0.1 + 1e-9
+
+
+def test_uk_terms_of_trade_and_gap_split(uk):
+    """ONS QNA 31 Mar 2023: terms-of-trade growth = (1 + g_x)/(1 + g_m) - 1 from the published
+    export and import deflator growth (1 decimal each; tolerance 0.11 pp); 2019 = 100; the gap
+    split adds up exactly on real data."""
+    d, _, out = uk
+    tot = out[out["measure"] == "terms_of_trade"]
+    annual = tot[tot["frequency"] == "A"].set_index("year")["value"]
+    assert annual[2019] == pytest.approx(100.0, abs=1e-9)
+    g_tot = 100 * (annual / annual.shift(1) - 1)
+    gx = uk_growth(d, "P6", "prev_period", "A").rename(index=int)
+    gm = uk_growth(d, "P7", "prev_period", "A").rename(index=int)
+    implied = 100 * ((1 + gx / 100) / (1 + gm / 100) - 1)
+    m = pd.concat([g_tot, implied], axis=1, join="inner").dropna()
+    assert len(m) == 26
+    assert (m.iloc[:, 0] - m.iloc[:, 1]).abs().max() <= 0.11
+    g = wide(out[out["measure"].isin(GAP_MEASURES)])
+    split = g["gap_export_price_part"] + g["gap_import_price_part"] + g["gap_other_part"]
+    np.testing.assert_allclose(split, g["gap_gdp_vs_domestic_demand"], atol=1e-9)
+    trade = tot.merge(out[out["measure"] == "trading_gain"], on="period")
+    assert len(trade) == 140
+
+
+# --- CPI -----------------------------------------------------------------------------------
+
+
+def cpi_monthly(values, first_year=2000, economy="XX"):
+    n = len(values)
+    return pd.DataFrame({"economy": economy, "item": "CPI", "price_basis": "index", "frequency": "M",
+                         "year": first_year + np.arange(n) // 12, "month": np.arange(n) % 12 + 1, "value": values})
+
+
+def test_cpi_quarterly_means_growth_and_gap_to_household_deflator():
+    """Monthly CPI enters as the mean of its levels in the quarter (METHODS.md 6, common
+    practice); growth per horizon; gap = CPI growth - household deflator growth."""
+    prices, quantities = economy_data(4)
+    lv = make_panel(prices, quantities, SPEC)
+    months = 100 * 1.004 ** np.arange(35)  # 2000-01 .. 2002-11: 2002-Q4 incomplete
+    out = price_gaps(lv, hierarchy=HIER, cpi=cpi_monthly(months))
+    q = out[out["measure"] == "cpi_quarterly"].set_index("period")["value"]
+    assert len(q) == 11 and "2002-Q4" not in q.index
+    assert q["2000-Q1"] == pytest.approx(months[:3].mean())
+    a = out[out["measure"] == "cpi_annual"].set_index("period")["value"]
+    assert list(a.index) == ["2000", "2001"] and a["2001"] == pytest.approx(months[12:24].mean())
+    growth = out[out["measure"] == "cpi_growth"].set_index(["period", "horizon"])["value"]
+    assert growth[("2001-Q1", "prev_period")] == pytest.approx(100 * (months[12:15].mean() / months[9:12].mean() - 1))
+    assert growth[("2001-Q1", "prev_year")] == pytest.approx(100 * (1.004**12 - 1))
+    assert growth[("2001", "prev_year")] == growth[("2001", "prev_period")]
+    hh = deflator_growth(implicit_deflators(lv, hierarchy=HIER)).query("item == 'P31_S14'")
+    gap = out[out["measure"] == "gap_cpi_vs_household"].merge(hh, on=["period", "horizon"])
+    assert len(gap) == 2 * 1 + 10 + 7
+    np.testing.assert_allclose(gap["value"], growth.loc[list(zip(gap["period"], gap["horizon"], strict=True))]
+                               .to_numpy() - gap["pct"].to_numpy(), atol=1e-9)
+    quarterly = pd.DataFrame({"economy": "XX", "item": "CPI", "price_basis": "index", "frequency": "Q",
+                              "year": 2000 + np.arange(11) // 4, "quarter": np.arange(11) % 4 + 1, "value": q.to_numpy()})
+    same = price_gaps(lv, hierarchy=HIER, cpi=quarterly)
+    pd.testing.assert_frame_equal(same, out)
+
+
+def test_cpi_frame_errors():
+    prices, quantities = economy_data(4)
+    lv = make_panel(prices, quantities, SPEC)
+    bad = cpi_monthly(np.full(12, 100.0))
+    bad.loc[3, "month"] = 13
+    bad.loc[5, "value"] = -1.0
+    with pytest.raises(InputError) as err:
+        price_gaps(lv, hierarchy=HIER, cpi=bad)
+    assert sorted(p.row for p in err.value.problems) == [3, 5]
+    dup = pd.concat([cpi_monthly(np.full(12, 100.0)), cpi_monthly(np.full(1, 100.0))], ignore_index=True)
+    with pytest.raises(InputError, match="more than once"):
+        price_gaps(lv, hierarchy=HIER, cpi=dup)
+    with pytest.raises(InputError, match="lacks column"):
+        price_gaps(lv, hierarchy=HIER, cpi=cpi_monthly(np.full(12, 100.0)).drop(columns="price_basis"))

@@ -1,0 +1,1 @@
+"""Price and volume methods: pure computations on levels panels."""

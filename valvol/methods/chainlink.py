@@ -1,0 +1,650 @@
+"""Chain-linked volumes from values at current and previous-year prices.
+
+Each annual link values a year at the average prices of the year before (previous-year
+prices, "PYP"). The links are multiplied into a chain scaled so that the annual volume of
+the reference year equals its value at current prices. Quarters are linked by annual
+overlap (default), one-quarter overlap or over-the-year. Items that change sign
+(inventories, valuables, discrepancy, external balance) are not chained by ratios: their
+values at previous-year prices are re-expressed with the deflator of the top aggregate
+that contains them.
+
+The module also holds the panel utilities `valvol.methods.contributions` shares:
+`levels_wide` (one column per price basis), `PanelCodes` / `Lookup` (integer-keyed,
+vectorised look-ups of any series in any period) and `top_aggregates`.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Mapping
+
+import numpy as np
+import pandas as pd
+
+from valvol.errors import ConfigError, InputError, Problem
+from valvol.frames import KEY, LEVEL_COLUMNS, empty_levels, period_label, sort_levels
+from valvol.hierarchy import Hierarchy
+
+#: Quarterly linking techniques (METHODS.md section 2.2).
+METHODS = ("annual_overlap", "one_quarter_overlap", "over_the_year")
+COMPARE_COLUMNS = ["economy", "item", "frequency", "year", "quarter", "period", "given", "computed",
+                   "diff", "pct_diff"]
+_WIDE_KEY = ["economy", "item", "frequency", "year", "quarter"]
+
+
+# ----------------------------------------------------------------------------- panel utilities
+def levels_wide(levels: pd.DataFrame, bases: Mapping[str, str]) -> pd.DataFrame:
+    """Validate a levels panel and spread the wanted price bases into columns.
+
+    Parameters
+    ----------
+    levels
+        Levels panel (`valvol.frames`); rows of other price bases are ignored.
+    bases
+        Price basis -> column name, e.g. ``{"current": "c", "previous_year": "k"}``.
+
+    Returns
+    -------
+    DataFrame
+        Columns economy, item, frequency, year, quarter and one column per basis (NaN where
+        the panel has no value), sorted by series and period.
+
+    Raises
+    ------
+    InputError
+        A column missing, a frequency/quarter pair outside (``A``, 0) / (``Q``, 1..4), a
+        non-finite value, or the same key given twice.
+    """
+    missing = [c for c in KEY + ["value"] if c not in levels.columns]
+    if missing:
+        raise InputError([Problem(reason=f"levels panel lacks column(s) {', '.join(missing)}")])
+    df = levels.loc[levels["price_basis"].isin(list(bases)), KEY + ["value"]].copy()
+    df["year"] = df["year"].astype("int64")
+    df["quarter"] = df["quarter"].astype("int64")
+    df["value"] = df["value"].astype("float64")
+    bad_freq = ~(((df["frequency"] == "A") & (df["quarter"] == 0))
+                 | ((df["frequency"] == "Q") & df["quarter"].between(1, 4)))
+    e_code, economies = pd.factorize(df["economy"], sort=True)
+    i_code, items = pd.factorize(df["item"], sort=True)
+    year, quarter = df["year"].to_numpy(), df["quarter"].to_numpy()
+    y_lo = int(year.min()) if len(year) else 0
+    n_years = (int(year.max()) - y_lo + 1) if len(year) else 1
+    series = e_code.astype("int64") * max(len(items), 1) + i_code
+    row_key = (series * n_years + (year - y_lo)) * 5 + np.clip(quarter, 0, 4)
+    b_code = pd.Categorical(df["price_basis"], categories=list(bases)).codes.astype("int64")
+    dup = pd.Series(row_key * len(bases) + b_code).duplicated().to_numpy()
+    bad_value = ~np.isfinite(df["value"].to_numpy())
+    problems = (problems_at(df[bad_freq], "frequency and quarter do not match (A with 0, Q with 1..4)")
+                + problems_at(df[dup], "value given more than once")
+                + problems_at(df[bad_value & ~bad_freq], "value is missing or not finite"))
+    if problems:
+        raise InputError(problems)
+    cols = list(bases.values())
+    if df.empty:
+        return pd.DataFrame({c: pd.Series(dtype="str") for c in ("economy", "item", "frequency")}
+                            | {c: pd.Series(dtype="int64") for c in ("year", "quarter")}
+                            | {c: pd.Series(dtype="float64") for c in cols})
+    keys, inverse = np.unique(row_key, return_inverse=True)
+    mat = np.full((len(keys), len(bases)), np.nan)
+    mat[inverse, b_code] = df["value"].to_numpy()
+    q = keys % 5
+    rest = keys // 5
+    wide = pd.DataFrame({"economy": pd.Series(np.asarray(economies, dtype=object)[rest // n_years // len(items)],
+                                              dtype="str"),
+                         "item": pd.Series(np.asarray(items, dtype=object)[(rest // n_years) % len(items)],
+                                           dtype="str"),
+                         "frequency": np.where(q == 0, "A", "Q"),
+                         "year": (rest % n_years + y_lo).astype("int64"), "quarter": q.astype("int64")})
+    wide["frequency"] = wide["frequency"].astype("str")
+    for j, col in enumerate(cols):
+        wide[col] = mat[:, j]
+    return wide
+
+
+def period_labels(year: np.ndarray, quarter: np.ndarray) -> np.ndarray:
+    """`valvol.frames.period_label` computed once per distinct period (fast on long panels)."""
+    code = np.asarray(year, dtype="int64") * 5 + np.asarray(quarter, dtype="int64")
+    uniq, inverse = np.unique(code, return_inverse=True)
+    return period_label(uniq // 5, uniq % 5).to_numpy(dtype=object)[inverse]
+
+
+def item_flags(items: pd.Series, predicate) -> np.ndarray:
+    """``predicate(item)`` evaluated once per distinct item, broadcast to the rows."""
+    uniq = pd.unique(items)
+    return items.isin([u for u in uniq if predicate(u)]).to_numpy()
+
+
+def problems_at(rows: pd.DataFrame, reason: str, price_basis: str | None = None,
+                year_offset: int = 0) -> list[Problem]:
+    """One `Problem` per row of ``rows`` (columns economy, item, year, quarter[, price_basis])."""
+    if rows.empty:
+        return []
+    quarter = rows["quarter"] if year_offset == 0 else pd.Series(0, index=rows.index)
+    labels = period_label(rows["year"].to_numpy() + year_offset, quarter.to_numpy())
+    if price_basis is None:
+        bases = rows["price_basis"] if "price_basis" in rows else pd.Series("", index=rows.index)
+    else:
+        bases = pd.Series(price_basis, index=rows.index)
+    return [Problem(economy=str(e), item=str(i), period=str(p), price_basis=str(b), reason=reason)
+            for e, i, p, b in zip(rows["economy"], rows["item"], labels, bases, strict=True)]
+
+
+def _distinct(values: Iterable[str]) -> list[str]:
+    if not isinstance(values, (pd.Series, pd.Index, np.ndarray, list)):
+        values = list(values)
+    return [str(v) for v in pd.unique(pd.Series(values, dtype="str"))]
+
+
+class PanelCodes:
+    """Integer codes of series ``(economy, item)`` and periods ``(year, quarter)``."""
+
+    def __init__(self, economies: Iterable[str], items: Iterable[str], years: Iterable[int]) -> None:
+        self.economies = pd.Index(sorted(_distinct(economies)), dtype="str")
+        self.items = pd.Index(sorted(_distinct(items)), dtype="str")
+        y = np.asarray(list(years), dtype="int64")
+        self.y_lo = int(y.min()) - 2 if y.size else 0
+        self.n_years = (int(y.max()) - self.y_lo + 3) if y.size else 1
+
+    def sid(self, economy: Iterable[str], item: Iterable[str]) -> np.ndarray:
+        """Series id, -1 where the economy or the item is unknown."""
+        e = pd.Categorical(economy, categories=self.economies).codes.astype("int64")
+        i = pd.Categorical(item, categories=self.items).codes.astype("int64")
+        return np.where((e >= 0) & (i >= 0), e * len(self.items) + i, -1)
+
+    def key(self, sid: np.ndarray, year: np.ndarray, quarter: np.ndarray) -> np.ndarray:
+        """Key of a series-period, -1 where out of range."""
+        sid = np.asarray(sid, dtype="int64")
+        yy = np.asarray(year, dtype="int64") - self.y_lo
+        ok = (sid >= 0) & (yy >= 0) & (yy < self.n_years)
+        return np.where(ok, (sid * self.n_years + yy) * 5 + np.asarray(quarter, dtype="int64"), -1)
+
+
+class Lookup:
+    """Values of the columns of ``frame`` (which has sid, year, quarter) by series and period."""
+
+    def __init__(self, codes: PanelCodes, frame: pd.DataFrame, columns: Iterable[str]) -> None:
+        self.codes = codes
+        self.index = pd.Index(codes.key(frame["sid"].to_numpy(), frame["year"].to_numpy(),
+                                        frame["quarter"].to_numpy()))
+        self.values = {c: frame[c].to_numpy(dtype="float64") for c in columns}
+
+    def get(self, column: str, sid: np.ndarray, year: np.ndarray, quarter: np.ndarray | int) -> np.ndarray:
+        """The column's values at ``(sid, year, quarter)``, NaN where absent."""
+        quarter = np.broadcast_to(np.asarray(quarter, dtype="int64"), np.shape(sid))
+        pos = self.index.get_indexer(self.codes.key(sid, year, quarter))
+        out = np.full(pos.shape, np.nan)
+        hit = pos >= 0
+        out[hit] = self.values[column][pos[hit]]
+        return out
+
+
+def nonpositive_problems(wide: pd.DataFrame, hierarchy: Hierarchy, columns: Mapping[str, str]) -> list[Problem]:
+    """Zero or negative values of positive (not sign-changing) series, located."""
+    positive = ~item_flags(wide["item"], hierarchy.is_sign_changing)
+    out: list[Problem] = []
+    for col, basis in columns.items():
+        bad = positive & (wide[col] <= 0)
+        out += problems_at(wide[bad], f"value {basis} is zero or negative in a series that must be "
+                           "positive (no ratio can be chained or weighted)", price_basis=basis)
+    return out
+
+
+def _positive_ancestors(hierarchy: Hierarchy) -> pd.DataFrame:
+    """Every positive ancestor of every item, ranked from the top of the hierarchy down."""
+    parents: dict[str, set[str]] = {}
+    for agg, comps in hierarchy.aggregates.items():
+        for comp in comps:
+            parents.setdefault(comp.item, set()).add(agg)
+    rows = []
+    for item in sorted(hierarchy.items):
+        dist: dict[str, int] = {}
+        stack = [(p, 1) for p in parents.get(item, ())]
+        while stack:
+            anc, d = stack.pop()
+            if dist.get(anc, 0) < d:
+                dist[anc] = d
+                stack.extend((p, d + 1) for p in parents.get(anc, ()))
+        rows += [(item, a, d) for a, d in dist.items() if not hierarchy.is_sign_changing(a)]
+    anc = pd.DataFrame(rows, columns=["item", "top", "distance"])
+    return anc.sort_values(["item", "distance", "top"], ascending=[True, False, True], ignore_index=True)
+
+
+def top_aggregates(hierarchy: Hierarchy, series: pd.DataFrame, available: pd.DataFrame) -> pd.DataFrame:
+    """The aggregate whose deflator values each sign-changing series.
+
+    Climbs the hierarchy from the item and takes the highest positive ancestor that has
+    data in the item's economy (``available``: columns economy, item).
+
+    Returns
+    -------
+    DataFrame
+        Columns economy, item, top; series without such an ancestor are left out.
+    """
+    if series.empty or available.empty:
+        return pd.DataFrame({c: pd.Series(dtype="str") for c in ("economy", "item", "top")})
+    anc = _positive_ancestors(hierarchy)
+    cand = series[["economy", "item"]].drop_duplicates().merge(anc, on="item")
+    avail = available[["economy", "item"]].drop_duplicates().rename(columns={"item": "top"})
+    cand = cand.merge(avail, on=["economy", "top"])
+    cand = cand.sort_values(["economy", "item", "distance", "top"], ascending=[True, True, False, True])
+    return cand.drop_duplicates(["economy", "item"])[["economy", "item", "top"]].reset_index(drop=True)
+
+
+def _to_levels(frame: pd.DataFrame, column: str) -> pd.DataFrame:
+    out = frame.loc[np.isfinite(frame[column].to_numpy(dtype="float64")),
+                    ["economy", "item", "frequency", "year", "quarter", column]]
+    out = out.rename(columns={column: "value"})
+    out.insert(2, "price_basis", "chain_linked")
+    out["period"] = pd.Series(period_labels(out["year"], out["quarter"]), index=out.index, dtype="str")
+    return out[LEVEL_COLUMNS]
+
+
+def _raise(problems: list[Problem]) -> None:
+    if problems:
+        raise InputError(problems)
+
+
+# ------------------------------------------------------------------------------- chain-linking
+def chain_link(levels: pd.DataFrame, *, hierarchy: Hierarchy, method: str = "annual_overlap",
+               reference_year: int | None = None, annual_rate: bool = False) -> pd.DataFrame:
+    """Chain-linked volumes of every series with values at current and previous-year prices.
+
+    Parameters
+    ----------
+    levels
+        Levels panel with ``current`` and ``previous_year`` rows (Q and A, or A only),
+        aggregates included; other price bases are ignored.
+    hierarchy
+        Signed hierarchy: tells the sign-changing items and the aggregates above them.
+    method
+        ``annual_overlap`` (default), ``one_quarter_overlap`` or ``over_the_year``.
+    reference_year
+        Year r whose annual volume equals its current-price value. None: for each economy
+        the latest year with an annual value at current prices (the latest complete year).
+    annual_rate
+        Quarterly levels at annual rate (annual value = mean of the quarters, not the sum).
+
+    Returns
+    -------
+    DataFrame
+        Levels panel of ``chain_linked`` rows (Q and A).
+
+    Raises
+    ------
+    ConfigError
+        Unknown method.
+    InputError
+        Zero or negative value of a positive series; a year that cannot be linked (its
+        previous-year value or the previous year's current value missing); a series not
+        covering the reference year; the overlap quarter of one-quarter overlap (or the
+        same quarter of over-the-year) missing.
+
+    Notes
+    -----
+    Annual links (METHODS.md 2.1): L_y = K_y / C_{y-1}, CLV_r = C_r, CLV_y = CLV_{y-1} L_y
+    forward and CLV_{y-1} = CLV_y / L_y backward. The first year y0 of a series (no
+    previous-year prices) thus has CLV_{y0} = CLV_{y0+1} / L_{y0+1}.
+
+    Quarters (METHODS.md 2.2), k at previous-year prices, c at current prices:
+
+    * annual overlap: CLV(s,y) = k(s,y) CLV_{y-1} / C_{y-1}. The quarters add up to the
+      annual volume (average to it with ``annual_rate``, where C is the annual mean:
+      the ratio CLV/C is the same in both conventions);
+    * one-quarter overlap: CLV(s,y) = k(s,y) CLV(4,y-1) / k^{(y-1)}(4,y-1);
+    * over-the-year: CLV(s,y) = CLV(s,y-1) k(s,y) / k^{(y-1)}(s,y-1).
+
+    k^{(y-1)}(s,y-1), a quarter of y-1 at the average prices of y-1, is derived as
+    k(s,y-1) C_{y-1} / K_{y-1} for an elementary series (exact: the series' annual
+    Paasche deflator is its average price relative), as the signed sum of its components
+    so valued for an aggregate. The one-quarter and over-the-year quarters do not add up
+    to the annual volumes; they are left unbenchmarked and scaled so that the quarters of
+    the reference year add up (average, ``annual_rate``) to C_r. Annual values are the
+    annual links under every method.
+
+    First-year quarters are valued at the average prices of that year:
+    CLV(s,y0) = v(s,y0) CLV_{y0} / C_{y0}, with v(s,y0) = k(s,y0) C_{y0} / K_{y0} when
+    previous-year values of y0 exist, else the current-price value c(s,y0) (the only
+    information there is; it leaves that year's within-year price movement in the
+    volumes). They add up to CLV_{y0}, and all three techniques coincide for the first
+    link. Quarters of an incomplete year before the first complete year get no volume.
+
+    Sign-changing items (``hierarchy.is_sign_changing``: P52, P53, YA1, B11, ...) are not
+    chained by ratios (METHODS.md 2.4, a variant of option (c), common practice): their
+    values at previous-year prices are re-expressed with the previous year's implicit
+    deflator of the top aggregate Z containing them (B1GQ for P52, P53, YA1; the highest
+    positive ancestor with data in the economy): CLV_i(t) = k_i(t) CLV^Z_{y-1} / C^Z_{y-1},
+    or, in the item's first year, c_i(t) CLV^Z_y / C^Z_y; the same for all three
+    techniques. An item with no such ancestor keeps its own previous-year values
+    unscaled (current values in its first year).
+
+    References
+    ----------
+    IMF, *Quarterly National Accounts Manual*, 2017 Edition, ch. 8, section D (annual
+    and one-quarter overlap) and ¶8.17 eq. (2); IMF, *Quarterly National Accounts
+    Manual* (2001), ch. IX (over-the-year); ABS 5216.0 (2020-21), ch. 6 Annex ¶6A.2 eq. (1);
+    ESA 95 ¶10.62-10.65; Aspden (2006), OECD.
+
+    Examples
+    --------
+    >>> h = Hierarchy.from_mapping({"T": ["X"]})
+    >>> rows = [("E", "X", "current", "A", 2020, 0, "2020", 100.0),
+    ...         ("E", "X", "current", "A", 2021, 0, "2021", 120.0),
+    ...         ("E", "X", "previous_year", "A", 2021, 0, "2021", 110.0)]
+    >>> lv = pd.DataFrame(rows, columns=LEVEL_COLUMNS)
+    >>> chain_link(lv, hierarchy=h, reference_year=2021)["value"].round(4).tolist()
+    [109.0909, 120.0]
+    """
+    if method not in METHODS:
+        raise ConfigError(f"unknown chain-linking method {method!r}; expected one of {', '.join(METHODS)}")
+    w = levels_wide(levels, {"current": "c", "previous_year": "k"})
+    counts = w.groupby(["economy", "item"])[["c", "k"]].transform("count")
+    w = w[(counts["c"] > 0) & (counts["k"] > 0)].reset_index(drop=True)
+    if w.empty:
+        return empty_levels()
+    w["sc"] = item_flags(w["item"], hierarchy.is_sign_changing)
+    _raise(nonpositive_problems(w, hierarchy, {"c": "current", "k": "previous_year"}))
+    codes = PanelCodes(w["economy"], [*pd.unique(w["item"]), *hierarchy.items], w["year"])
+    w["sid"] = codes.sid(w["economy"], w["item"])
+    if reference_year is not None:
+        ref = pd.Series(int(reference_year), index=pd.unique(w["economy"]))
+    else:
+        ref = w.loc[(w["frequency"] == "A") & w["c"].notna()].groupby("economy")["year"].max()
+
+    ann = _annual_chain(w[~w["sc"] & (w["frequency"] == "A")], ref)
+    ann_lu = Lookup(codes, ann, ["c", "k", "clv", "fa"])
+    y0 = ann.groupby("sid")["year"].min()
+    tops = top_aggregates(hierarchy, w[w["sc"]], ann)
+    tops["top_sid"] = codes.sid(tops["economy"], tops["top"])
+    w = w.merge(tops[["economy", "item", "top_sid"]], on=["economy", "item"], how="left")
+    w["top_sid"] = w["top_sid"].fillna(-1).astype("int64")
+
+    q = w[~w["sc"] & (w["frequency"] == "Q")].copy()
+    q["y0"] = q["sid"].map(y0)
+    q = q[q["y0"].notna() & (q["year"] >= q["y0"])].reset_index(drop=True)
+    q["y0"] = q["y0"].astype("int64")
+    if method == "annual_overlap":
+        q["clv"] = _annual_overlap_quarters(q, ann_lu)
+    else:
+        rho = _own_year_price_ratios(w[w["frequency"] == "Q"], ann_lu, hierarchy, codes)
+        q["clv"] = _overlap_quarters(q, ann_lu, rho, codes, method, annual_rate, ref)
+    parts = [_to_levels(ann, "clv"), _to_levels(q, "clv")]
+    if w["sc"].any():
+        parts.append(_to_levels(_sign_changing_volumes(w[w["sc"]], ann_lu), "clv"))
+    out = pd.concat(parts, ignore_index=True)
+    return sort_levels(out)
+
+
+def _annual_chain(a: pd.DataFrame, ref: pd.Series) -> pd.DataFrame:
+    """Annual links, their chain and the volumes CLV_y; adds columns y0, clv and fa = CLV/C."""
+    a = a.sort_values(["sid", "year"], ignore_index=True)
+    y0 = a["year"].where(a["c"].notna()).groupby(a["sid"]).transform("min")
+    a = a[y0.notna() & (a["year"] >= y0)].copy()
+    a["y0"] = y0[a.index].astype("int64")
+    a = a.reset_index(drop=True)
+    g = a.groupby("sid", sort=False)
+    prev_year = g["year"].shift()
+    prev_c = g["c"].shift()
+    later = a["year"] > a["y0"]
+    gap = prev_year.notna() & (a["year"] - prev_year != 1)
+    problems = problems_at(a[gap], "annual values missing just before this year: the chain cannot be "
+                           "linked across a gap", price_basis="current", year_offset=-1)
+    problems += problems_at(a[later & ~gap & a["k"].isna()], "previous_year value missing: the year "
+                            "cannot be linked to the year before", price_basis="previous_year")
+    problems += problems_at(a[later & ~gap & a["k"].notna() & prev_c.isna()], "current-price value "
+                            "missing: the next year cannot be linked", price_basis="current", year_offset=-1)
+    link = (a["k"] / prev_c).where(later, 1.0)
+    a["chain"] = link.groupby(a["sid"]).cumprod()
+    r = a["economy"].map(ref)
+    is_r = a["year"] == r
+    c_r = a["c"].where(is_r).groupby(a["sid"]).transform("max")
+    chain_r = a["chain"].where(is_r).groupby(a["sid"]).transform("max")
+    lost = a[c_r.isna()].drop_duplicates("sid")
+    for row in lost.itertuples(index=False):  # one problem per series lacking the reference year
+        year = ref.get(row.economy)
+        problems.append(Problem(economy=row.economy, item=row.item, price_basis="current",
+                                period="" if pd.isna(year) else str(int(year)),
+                                reason="series does not cover the reference year (no annual current-price "
+                                       "value there): its chain cannot be referenced"))
+    _raise(problems)
+    a["clv"] = c_r * a["chain"] / chain_r
+    a["fa"] = a["clv"] / a["c"]
+    return a
+
+
+def _first_year_values(q: pd.DataFrame, ann_lu: Lookup) -> np.ndarray:
+    """Quarters of the first year at that year's average prices (k C/K, else c)."""
+    sid, year = q["sid"].to_numpy(), q["year"].to_numpy()
+    k, c = q["k"].to_numpy(dtype="float64"), q["c"].to_numpy(dtype="float64")
+    big_c, big_k = ann_lu.get("c", sid, year, 0), ann_lu.get("k", sid, year, 0)
+    return np.where(np.isfinite(k) & np.isfinite(big_k), k * big_c / big_k, c)
+
+
+def _annual_overlap_quarters(q: pd.DataFrame, ann_lu: Lookup) -> np.ndarray:
+    sid, year = q["sid"].to_numpy(), q["year"].to_numpy()
+    first = year == q["y0"].to_numpy()
+    k = q["k"].to_numpy(dtype="float64")
+    fa_prev = ann_lu.get("fa", sid, year - 1, 0)
+    v_first = _first_year_values(q, ann_lu)
+    clv = np.where(first, v_first * ann_lu.get("fa", sid, year, 0), k * fa_prev)
+    no_k = ~first & ~np.isfinite(k)
+    no_link = ~first & np.isfinite(k) & ~np.isfinite(fa_prev)
+    _raise(problems_at(q[no_k], "previous_year value missing: the quarter cannot be linked",
+                       price_basis="previous_year")
+           + problems_at(q[no_link], "no annual chain-linked volume of the year before to link the "
+                         "quarter to (annual values of that year missing)", price_basis="current")
+           + problems_at(q[first & ~np.isfinite(v_first)], "current value missing in the first year",
+                         price_basis="current"))
+    return clv
+
+
+def _heights(hierarchy: Hierarchy) -> list[list[str]]:
+    """Positive aggregates grouped by height (1: only non-aggregate components)."""
+    height: dict[str, int] = {}
+    for agg in hierarchy.order():
+        height[agg] = 1 + max((height.get(c.item, 0) for c in hierarchy.aggregates[agg]), default=0)
+    levels: dict[int, list[str]] = {}
+    for agg, h in height.items():
+        if not hierarchy.is_sign_changing(agg):
+            levels.setdefault(h, []).append(agg)
+    return [sorted(levels[h]) for h in sorted(levels)]
+
+
+def _own_year_price_ratios(qa: pd.DataFrame, ann_lu: Lookup, hierarchy: Hierarchy,
+                           codes: PanelCodes) -> Lookup:
+    """rho(s,j) = k^{(j)}(s,j) / k(s,j): value at own-year average prices over value at PYP."""
+    qa = qa[["economy", "item", "year", "quarter", "sid", "top_sid", "sc", "k"]].copy()
+    sid, top, year = qa["sid"].to_numpy(), qa["top_sid"].to_numpy(), qa["year"].to_numpy()
+    own = ann_lu.get("c", sid, year, 0) / ann_lu.get("k", sid, year, 0)
+    via_top = np.where(top >= 0, ann_lu.get("c", top, year, 0) / ann_lu.get("k", top, year, 0), 1.0)
+    rho = np.where(qa["sc"].to_numpy(), via_top, own)
+    qa["rho"] = np.where(np.isfinite(qa["k"].to_numpy(dtype="float64")), rho, np.nan)
+    edges = pd.DataFrame(hierarchy.edges(), columns=["aggregate", "item", "sign"])
+    for level in _heights(hierarchy):  # bottom-up over hierarchy levels, each over the whole panel
+        comp = qa[qa["k"].notna()].merge(edges[edges["aggregate"].isin(level)], on="item")
+        if comp.empty:
+            continue
+        comp["sk"] = comp["sign"] * comp["k"]
+        comp["skr"] = comp["sk"] * comp["rho"]
+        comp["gap"] = comp["rho"].isna()
+        g = comp.groupby(["economy", "aggregate", "year", "quarter"], as_index=False).agg(
+            sk=("sk", "sum"), skr=("skr", "sum"), gap=("gap", "any"))
+        g["ratio"] = np.where(~g["gap"] & (g["sk"] > 0), g["skr"] / g["sk"], np.nan)
+        g["sid"] = codes.sid(g["economy"], g["aggregate"])
+        g["found"] = 1.0
+        found = Lookup(codes, g, ["ratio", "found"])
+        qtr = qa["quarter"].to_numpy()
+        covered = np.isfinite(found.get("found", sid, year, qtr)) & np.isfinite(qa["k"].to_numpy(dtype="float64"))
+        qa["rho"] = np.where(covered, found.get("ratio", sid, year, qtr), qa["rho"].to_numpy())
+    return Lookup(codes, qa, ["rho"])
+
+
+def _overlap_quarters(q: pd.DataFrame, ann_lu: Lookup, rho: Lookup, codes: PanelCodes, method: str,
+                      annual_rate: bool, ref: pd.Series) -> np.ndarray:
+    """Quarters by one-quarter overlap or over-the-year, scaled to C_r in the reference year."""
+    sid, year, quarter = q["sid"].to_numpy(), q["year"].to_numpy(), q["quarter"].to_numpy()
+    y0 = q["y0"].to_numpy()
+    k = q["k"].to_numpy(dtype="float64")
+    # growth factors 1/rho(s_o, j) for j > y0, s_o = 4 (one-quarter) or s (over-the-year)
+    t = q[(year > y0) & ((quarter == 4) | (method == "over_the_year"))][["sid", "year", "quarter"]].copy()
+    t = t.sort_values(["sid", "quarter", "year"], ignore_index=True)
+    t["g"] = 1.0 / rho.get("rho", t["sid"].to_numpy(), t["year"].to_numpy(), t["quarter"].to_numpy())
+    grp = t.groupby(["sid", "quarter"], sort=False)
+    bad = t["g"].isna() | (grp["year"].diff().fillna(1) != 1)
+    poisoned = bad.astype("int64").groupby([t["sid"], t["quarter"]]).cumsum() > 0
+    t["G"] = t["g"].fillna(1.0).groupby([t["sid"], t["quarter"]]).cumprod().where(~poisoned)
+    q_o = np.full(quarter.shape, 4) if method == "one_quarter_overlap" else quarter
+    cum = np.where(year >= y0 + 2, Lookup(codes, t, ["G"]).get("G", sid, year - 1, q_o), 1.0)
+    fa0 = ann_lu.get("fa", sid, y0, 0)
+    clv = np.where(year == y0, _first_year_values(q, ann_lu) * fa0, k * fa0 * cum)
+    where = "Q4" if method == "one_quarter_overlap" else "the same quarter"
+    _raise(problems_at(q[(year > y0) & ~np.isfinite(k)], "previous_year value missing: the quarter "
+                       "cannot be linked", price_basis="previous_year")
+           + problems_at(q[(year > y0) & np.isfinite(k) & ~np.isfinite(cum * fa0)],
+                         f"{method}: {where} of the year before, valued at that year's prices, is missing "
+                         "(previous_year quarter or annual values of that year missing)",
+                         price_basis="previous_year"))
+    # scale: the quarters of the reference year add up (average) to C_r
+    r = q["economy"].map(ref).to_numpy(dtype="float64")
+    in_r = year == r
+    tot = pd.Series(np.where(in_r, clv, 0.0)).groupby(sid).transform("sum").to_numpy()
+    n = pd.Series(in_r.astype("int64")).groupby(sid).transform("sum").to_numpy()
+    annual_of_quarters = tot / 4.0 if annual_rate else tot
+    c_r = ann_lu.get("c", sid, np.nan_to_num(r, nan=-10**6).astype("int64"), 0)
+    scale = np.where((n == 4) & np.isfinite(c_r), c_r / np.where(n == 4, annual_of_quarters, 1.0), 1.0)
+    return clv * scale
+
+
+def _sign_changing_volumes(s: pd.DataFrame, ann_lu: Lookup) -> pd.DataFrame:
+    """Sign-changing items: PYP re-expressed with the top aggregate's previous-year deflator."""
+    s = s.copy()
+    top, year = s["top_sid"].to_numpy(), s["year"].to_numpy()
+    k, c = s["k"].to_numpy(dtype="float64"), s["c"].to_numpy(dtype="float64")
+    fa_prev, fa_same = ann_lu.get("fa", top, year - 1, 0), ann_lu.get("fa", top, year, 0)
+    use_k = np.isfinite(k) & np.isfinite(fa_prev)
+    clv = np.where(use_k, k * fa_prev, c * fa_same)
+    s["clv"] = np.where(top >= 0, clv, np.where(np.isfinite(k), k, c))
+    first = s["year"].where((s["frequency"] == "A") & s["c"].notna()).groupby(s["sid"]).transform("min")
+    missing = ~np.isfinite(s["clv"].to_numpy()) & (s["year"] >= first).to_numpy()
+    _raise(problems_at(s[missing], "sign-changing item: no chain-linked annual volume of the aggregate "
+                       "whose deflator values it, for this year or the year before"))
+    return s
+
+
+# ------------------------------------------------------------------- re-referencing and checks
+def rereference(chained: pd.DataFrame, current: pd.DataFrame, reference_year: int, *,
+                hierarchy: Hierarchy | None = None) -> pd.DataFrame:
+    """Move chain-linked volumes to another reference year.
+
+    Parameters
+    ----------
+    chained
+        Levels panel; its ``chain_linked`` rows (annual and quarterly) are re-referenced.
+    current
+        Levels panel holding the annual ``current`` values of the new reference year.
+    reference_year
+        The new reference year r'.
+    hierarchy
+        Tells the sign-changing items and their top aggregates (default:
+        `Hierarchy.default`).
+
+    Returns
+    -------
+    DataFrame
+        Levels panel of ``chain_linked`` rows at the new reference.
+
+    Raises
+    ------
+    InputError
+        A series without annual current-price and chain-linked values in r', or with a
+        non-positive factor.
+
+    Notes
+    -----
+    One annual factor per series for its annual and quarterly values (METHODS.md 1):
+    CLV'_t = CLV_t C_{r'} / CLV_{r'}. Growth rates are unchanged; the quarters of r' no
+    longer add up. A sign-changing item takes the factor of its top aggregate (consistent
+    with `chain_link`, where its volume is re-expressed with that aggregate's deflator);
+    without one, its own factor.
+
+    References
+    ----------
+    ABS 5216.0 (2020-21), ch. 6 ¶6.29-6.31.
+    """
+    hierarchy = hierarchy if hierarchy is not None else Hierarchy.default()
+    ch = levels_wide(chained, {"chain_linked": "v"})
+    cur = levels_wide(current, {"current": "c"})
+    r = int(reference_year)
+    keys = ["economy", "item"]
+    f = ch[keys].drop_duplicates()
+    f = f.merge(ch.loc[(ch["frequency"] == "A") & (ch["year"] == r), keys + ["v"]], on=keys, how="left")
+    f = f.merge(cur.loc[(cur["frequency"] == "A") & (cur["year"] == r), keys + ["c"]], on=keys, how="left")
+    f["factor"] = f["c"] / f["v"]
+    f["sc"] = item_flags(f["item"], hierarchy.is_sign_changing)
+    ok = np.isfinite(f["factor"]) & (f["factor"] > 0)
+    tops = top_aggregates(hierarchy, f[f["sc"]], f[~f["sc"] & ok])
+    top_f = f[keys + ["factor"]].rename(columns={"item": "top", "factor": "top_factor"})
+    f = f.merge(tops.merge(top_f, on=["economy", "top"]), on=keys, how="left")
+    f["factor"] = np.where(f["top_factor"].notna(), f["top_factor"], f["factor"])
+    bad = ~(np.isfinite(f["factor"]) & (f["factor"] > 0))
+    _raise([Problem(economy=row.economy, item=row.item, period=str(r),
+                    price_basis="current" if pd.isna(row.c) else "chain_linked",
+                    reason="no annual current-price and chain-linked values in the new reference year "
+                           "(or their ratio is not positive): the series cannot be re-referenced")
+            for row in f[bad].itertuples(index=False)])
+    out = ch.merge(f[keys + ["factor"]], on=keys)
+    out["value"] = out["v"] * out["factor"]
+    return sort_levels(_to_levels(out, "value"))
+
+
+def nonadditivity_residual(chained: pd.DataFrame, hierarchy: Hierarchy) -> pd.DataFrame:
+    """Aggregate minus the signed sum of its chain-linked components.
+
+    Returns
+    -------
+    DataFrame
+        Levels panel, item ``<AGG>_RESIDUAL``, price basis ``chain_linked``: one row per
+        aggregate and period where the aggregate and all its direct components have
+        chain-linked values.
+
+    Notes
+    -----
+    R_t = CLV^Z_t - sum_i s_i CLV^i_t (METHODS.md 2.3). Zero in the reference year and, under
+    annual overlap, in the year after it; not otherwise (ESA 95 ¶10.65).
+
+    References
+    ----------
+    ESA 95 ¶10.65; BEA, *Survey of Current Business*, Nov 1998, box 4.
+    """
+    ch = levels_wide(chained, {"chain_linked": "v"})
+    edges = pd.DataFrame(hierarchy.edges(), columns=["aggregate", "item", "sign"])
+    n_comp = edges.groupby("aggregate")["item"].size().rename("n_comp")
+    comp = ch.merge(edges, on="item")
+    comp["sv"] = comp["sign"] * comp["v"]
+    g = comp.groupby(["economy", "aggregate", "frequency", "year", "quarter"], as_index=False).agg(
+        total=("sv", "sum"), n=("sv", "size"))
+    g = g.merge(n_comp, left_on="aggregate", right_index=True)
+    g = g[g["n"] == g["n_comp"]]
+    agg = ch.rename(columns={"item": "aggregate"})
+    g = g.merge(agg, on=["economy", "aggregate", "frequency", "year", "quarter"])
+    g["value"] = g["v"] - g["total"]
+    g["item"] = g["aggregate"] + "_RESIDUAL"
+    return sort_levels(_to_levels(g, "value"))
+
+
+def compare_chain_linked(given: pd.DataFrame, computed: pd.DataFrame) -> pd.DataFrame:
+    """Published (given) against computed chain-linked volumes, per economy, item and period.
+
+    Returns
+    -------
+    DataFrame
+        Columns economy, item, frequency, year, quarter, period, given, computed,
+        diff = computed - given and pct_diff = 100 diff / |given| (NaN where given is 0),
+        for the series-periods present in both.
+    """
+    g = levels_wide(given, {"chain_linked": "given"})
+    c = levels_wide(computed, {"chain_linked": "computed"})
+    out = g.merge(c, on=_WIDE_KEY)
+    out["period"] = period_label(out["year"], out["quarter"]).to_numpy()
+    out["diff"] = out["computed"] - out["given"]
+    denom = out["given"].abs().where(out["given"] != 0)
+    out["pct_diff"] = 100.0 * out["diff"] / denom
+    return out[COMPARE_COLUMNS].sort_values(_WIDE_KEY, kind="mergesort", ignore_index=True)

@@ -1,0 +1,412 @@
+"""Contributions of components to the volume growth of their aggregates, and Fisher indexes.
+
+`volume_contributions` works on a levels panel for every declared aggregate and each of its
+direct signed components, over two horizons: the previous period and the same period a
+year earlier (annual rows: the previous year, given under both horizon labels). Three
+conventions: ``two_step`` (exactly additive on annual-overlap data), ``prior_year_weights``
+(the UK agency's convention, non-additive) and ``fisher`` (chain Fisher data, additive).
+
+Contributions carry the component's sign: imports count negative when import volumes rise.
+Sign-changing items (inventories, valuables, discrepancy) get level-difference
+contributions and no growth rate of their own.
+
+The standalone helpers work on small wide frames (rows: periods in order, columns: items):
+`index_relatives`, `laspeyres_index`, `paasche_index`, `fisher_index`, `chain_index`,
+`fisher_contributions`, `fisher_price_contributions` and `fisher_contribution_weights`.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+
+import numpy as np
+import pandas as pd
+
+from valvol.errors import ConfigError, InputError
+from valvol.hierarchy import Hierarchy
+from valvol.methods.chainlink import (
+    Lookup,
+    PanelCodes,
+    item_flags,
+    levels_wide,
+    nonpositive_problems,
+    period_labels,
+    top_aggregates,
+)
+
+CONVENTIONS = ("two_step", "prior_year_weights", "fisher")
+OUTPUT_COLUMNS = ["economy", "period", "frequency", "year", "quarter", "aggregate", "item", "horizon",
+                  "contribution_pp", "aggregate_growth_pct", "residual_pp"]
+HORIZONS = ("prev_period", "prev_year")
+
+
+def volume_contributions(levels: pd.DataFrame, *, hierarchy: Hierarchy, convention: str = "two_step",
+                         annual_rate: bool = False) -> pd.DataFrame:
+    """Contributions of each component to the volume growth of its aggregate.
+
+    Parameters
+    ----------
+    levels
+        Levels panel with ``current``, ``previous_year`` and ``chain_linked`` rows (Q and A;
+        ``prior_year_weights`` and ``fisher`` need no previous-year values).
+    hierarchy
+        Signed aggregates; one row per aggregate, direct component, period and horizon.
+    convention
+        ``two_step`` (default), ``prior_year_weights`` or ``fisher``.
+    annual_rate
+        Quarterly levels at annual rate (the annual value is the mean of the quarters).
+
+    Returns
+    -------
+    DataFrame
+        Columns economy, period, frequency, year, quarter, aggregate, item, horizon
+        (``prev_period`` / ``prev_year``), contribution_pp (component sign applied),
+        aggregate_growth_pct (growth of the aggregate's chain-linked volume over the
+        horizon) and residual_pp (growth minus the sum of the contributions of that
+        aggregate, period and horizon, repeated on each row). Rows whose inputs are
+        incomplete are left out. Sign-changing aggregates (B11, ...) have no growth rate
+        and get no rows of their own.
+
+    Raises
+    ------
+    ConfigError
+        Unknown convention.
+    InputError
+        Malformed panel, or a zero or negative value of a positive series.
+
+    Notes
+    -----
+    s_i the sign, k at previous-year prices, K and C annual values, a = 4 (1 with
+    ``annual_rate``: the quarterly average of the year is then the annual value itself).
+
+    ``two_step`` (METHODS.md 3.1-3.3, exactly additive on annual-overlap data):
+
+    * annual: ctr_i = 100 s_i (K^i_y - C^i_{y-1}) / C^Z_{y-1};
+    * quarter on quarter within a year: ctr_i = 100 s_i (k^i(s) - k^i(s-1)) / k^Z(s-1);
+    * across the year boundary (Q1 on Q4, and every year-on-year quarter), through the
+      annual average of y-1: ctr_i = 100 s_i [K^i_{y-1}/a - k^i(t_o)
+      + (k^i(t_n) - C^i_{y-1}/a) K^Z_{y-1}/C^Z_{y-1}] / k^Z(t_o).
+
+    In the first year of a series (no previous-year values) the current values stand in
+    for k and K, as in `valvol.methods.chainlink.chain_link`.
+
+    ``prior_year_weights`` (METHODS.md 3.4), w_{i} = C^i_{y-1} / CLV^i_{y-1}, y the year of
+    the new period: ctr_i = 100 s_i (CLV^i_t - CLV^i_{t_o}) w_i / (CLV^Z_{t_o} w_Z); annual
+    rows have CLV^Z_{y-1} w_Z = C^Z_{y-1}. Not additive across the year boundary and year
+    on year: the residual is reported.
+
+    ``fisher`` (METHODS.md 3.5), current-price form with x = s_i C^i and the price relative
+    r_i = p^i_t / p^i_{t_o}, p = C / CLV: ctr_i = 100 [(V_t/V_{t_o})(x_{i,t}/r_i - x_{i,t_o})
+    + Q^F (x_{i,t} - x_{i,t_o} r_i)] / [V_t + Q^F sum_j x_{j,t_o} r_j], V = sum x; the
+    contributions add up to the Fisher index of the comparison (for year-on-year
+    quarters the direct Fisher index between t_o and t, so chained data leave a residual).
+
+    Sign-changing components (METHODS.md 3.6): the formulas above are level differences
+    and apply unchanged under ``two_step``; under ``prior_year_weights`` the weight and
+    under ``fisher`` the price relative are those of the item's top aggregate (the
+    aggregate whose deflator values it in `chain_link`).
+
+    References
+    ----------
+    IMF, *Quarterly National Accounts Manual*, 2017 Edition, ch. 8, section G; Aspden
+    (2006), *Country practices in deriving contributions to growth*, OECD; ONS, Quarterly
+    National Accounts (contributions to GDP growth); BEA, *A Guide to the NIPAs*, App. 3;
+    Statistics Canada, 13-017-X (2008), Table 2.12.
+
+    Examples
+    --------
+    >>> from valvol.frames import LEVEL_COLUMNS
+    >>> h = Hierarchy.from_mapping({"T": ["X", "-M"]})
+    >>> rows = [("E", i, b, "A", y, 0, str(y), v) for i, b, y, v in [
+    ...     ("T", "current", 2020, 80.0), ("X", "current", 2020, 100.0), ("M", "current", 2020, 20.0),
+    ...     ("T", "previous_year", 2021, 84.0), ("X", "previous_year", 2021, 110.0),
+    ...     ("M", "previous_year", 2021, 26.0), ("T", "chain_linked", 2020, 80.0),
+    ...     ("T", "chain_linked", 2021, 84.0)]]
+    >>> out = volume_contributions(pd.DataFrame(rows, columns=LEVEL_COLUMNS), hierarchy=h)
+    >>> sel = out.loc[out["horizon"] == "prev_year", ["item", "contribution_pp", "aggregate_growth_pct"]]
+    >>> sel.round(6).values.tolist()
+    [['M', -7.5, 5.0], ['X', 12.5, 5.0]]
+    """
+    if convention not in CONVENTIONS:
+        raise ConfigError(f"unknown contributions convention {convention!r}; "
+                          f"expected one of {', '.join(CONVENTIONS)}")
+    w = levels_wide(levels, {"current": "c", "previous_year": "k", "chain_linked": "v"})
+    problems = nonpositive_problems(w, hierarchy, {"c": "current", "k": "previous_year", "v": "chain_linked"})
+    if problems:
+        raise InputError(problems)
+    edges = pd.DataFrame(hierarchy.edges(), columns=["aggregate", "item", "sign"])
+    edges = edges[~edges["aggregate"].map(hierarchy.is_sign_changing).astype(bool)]
+    if w.empty or edges.empty:
+        return pd.DataFrame({c: pd.Series(dtype="float64" if c.endswith(("pp", "pct")) else "str")
+                             for c in OUTPUT_COLUMNS})
+    codes = PanelCodes(w["economy"], [*pd.unique(w["item"]), *hierarchy.items], w["year"])
+    w["sid"] = codes.sid(w["economy"], w["item"])
+    w["sc"] = item_flags(w["item"], hierarchy.is_sign_changing)
+    if convention == "two_step":  # first year of a series: current values stand in for PYP
+        y0 = w["year"].where(w["c"].notna()).groupby(w["sid"]).transform("min")
+        w["k"] = w["k"].where(w["k"].notna() | (w["year"] != y0), w["c"])
+    avail = w.loc[~w["sc"] & w["c"].notna() & w["v"].notna(), ["economy", "item"]]
+    tops = top_aggregates(hierarchy, w[w["sc"]], avail)
+    lu = Lookup(codes, w, ["c", "k", "v"])
+
+    # one row per (component row of the panel, aggregate it belongs to), integer codes only
+    n_items = len(codes.items)
+    top_of = np.full(len(codes.economies) * n_items, -1, dtype="int64")
+    top_of[codes.sid(tops["economy"], tops["item"])] = codes.sid(tops["economy"], tops["top"])
+    e_idx = pd.Series(codes.items.get_indexer(edges["item"]))
+    edge = pd.DataFrame({"i": e_idx, "z": codes.items.get_indexer(edges["aggregate"]),
+                         "sign": edges["sign"].to_numpy(dtype="float64")})
+    sid_all = w["sid"].to_numpy()
+    rows = pd.DataFrame({"sid": sid_all, "i": sid_all % n_items, "year": w["year"].to_numpy(),
+                         "quarter": w["quarter"].to_numpy()})
+    rows = _with_horizons(rows[rows["i"].isin(edge["i"])].merge(edge, on="i"))
+    sid = rows["sid"].to_numpy()
+    zsid = (sid // n_items) * n_items + rows["z"].to_numpy()
+    tsid = np.where(top_of[sid] >= 0, top_of[sid], sid)
+    sign = rows["sign"].to_numpy()
+    # group: aggregate series, period, horizon
+    group = np.unique(codes.key(zsid, rows["year"].to_numpy(), rows["quarter"].to_numpy()) * 2
+                      + rows["h"].to_numpy(), return_inverse=True)[1]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ctr, growth = _compute(convention, rows, lu, sid, zsid, tsid, sign, annual_rate, group)
+    keep = np.isfinite(ctr) & np.isfinite(growth)
+    rows, ctr, growth, group = rows[keep], ctr[keep], growth[keep], group[keep]
+    residual = growth - np.bincount(group, weights=ctr)[group]
+    # annual rows once more under the previous-period label
+    dup = np.flatnonzero(rows["quarter"].to_numpy() == 0)
+    take = np.concatenate([np.arange(len(rows)), dup])
+    h = np.concatenate([rows["h"].to_numpy(), np.zeros(len(dup), dtype="int64")])
+    sid, zsid, year, quarter = (np.asarray(a)[take] for a in (rows["sid"], zsid, rows["year"], rows["quarter"]))
+    order = np.lexsort((sid % n_items, h, quarter, year, quarter > 0, zsid % n_items, sid // n_items))
+    take, h, sid, zsid, year, quarter = (a[order] for a in (take, h, sid, zsid, year, quarter))
+    items = codes.items.to_numpy(dtype=object)
+    out = pd.DataFrame({
+        "economy": pd.Series(codes.economies.to_numpy(dtype=object)[sid // n_items], dtype="str"),
+        "period": pd.Series(period_labels(year, quarter), dtype="str"),
+        "frequency": pd.Series(np.where(quarter > 0, "Q", "A"), dtype="str"),
+        "year": year, "quarter": quarter,
+        "aggregate": pd.Series(items[zsid % n_items], dtype="str"),
+        "item": pd.Series(items[sid % n_items], dtype="str"),
+        "horizon": pd.Series(np.asarray(HORIZONS, dtype=object)[h], dtype="str"),
+        "contribution_pp": ctr[take], "aggregate_growth_pct": growth[take], "residual_pp": residual[take]})
+    return out[OUTPUT_COLUMNS]
+
+
+def _compute(convention: str, rows: pd.DataFrame, lu: Lookup, sid: np.ndarray, zsid: np.ndarray,
+             tsid: np.ndarray, sign: np.ndarray, annual_rate: bool,
+             group: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Contributions and aggregate growth of every row under one convention."""
+    year, qn = rows["year"].to_numpy(), rows["quarter"].to_numpy()
+    yo, qo = rows["year_o"].to_numpy(), rows["quarter_o"].to_numpy()
+    vz_n, vz_o = lu.get("v", zsid, year, qn), lu.get("v", zsid, yo, qo)
+    growth = 100.0 * (vz_n / vz_o - 1.0)
+
+    if convention == "two_step":
+        a = 1.0 if annual_rate else 4.0
+        ctr = _two_step(lu, sid, zsid, sign, year, qn, yo, qo, a)
+        # no chain-linked aggregate: the growth its annual-overlap chain would have (same formula)
+        own = _two_step(lu, zsid, zsid, np.ones_like(sign), year, qn, yo, qo, a)
+        growth = np.where(np.isfinite(growth), growth, own)
+    elif convention == "prior_year_weights":
+        w_i = lu.get("c", tsid, year - 1, 0) / lu.get("v", tsid, year - 1, 0)
+        w_z = lu.get("c", zsid, year - 1, 0) / lu.get("v", zsid, year - 1, 0)
+        ctr = 100.0 * sign * (lu.get("v", sid, year, qn) - lu.get("v", sid, yo, qo)) * w_i / (vz_o * w_z)
+    else:
+        ctr = _fisher_long(rows, lu, sid, tsid, sign, group)
+    return ctr, growth
+
+
+def _two_step(lu: Lookup, sid: np.ndarray, zsid: np.ndarray, sign: np.ndarray, year: np.ndarray,
+              qn: np.ndarray, yo: np.ndarray, qo: np.ndarray, a: float) -> np.ndarray:
+    """METHODS.md 3.1-3.3: annual, within-year and two-step (year-boundary) contributions."""
+    k_n, k_o = lu.get("k", sid, year, qn), lu.get("k", sid, yo, qo)
+    kz_o = lu.get("k", zsid, yo, qo)
+    big_k, big_c = lu.get("k", sid, year - 1, 0), lu.get("c", sid, year - 1, 0)
+    big_kz, big_cz = lu.get("k", zsid, year - 1, 0), lu.get("c", zsid, year - 1, 0)
+    within = 100.0 * sign * (k_n - k_o) / kz_o
+    cross = 100.0 * sign * (big_k / a - k_o + (k_n - big_c / a) * big_kz / big_cz) / kz_o
+    annual = 100.0 * sign * (k_n - big_c) / big_cz
+    return np.where(qn == 0, annual, np.where(yo == year, within, cross))
+
+
+def _with_horizons(rows: pd.DataFrame) -> pd.DataFrame:
+    """Repeat quarterly rows per horizon (h: 0 previous period, 1 a year earlier); add the
+    comparison period (year_o, quarter_o). Annual rows: previous year (h = 1)."""
+    q = rows[rows["quarter"] > 0]
+    pp = q.assign(h=0, year_o=np.where(q["quarter"] > 1, q["year"], q["year"] - 1),
+                  quarter_o=np.where(q["quarter"] > 1, q["quarter"] - 1, 4))
+    py = q.assign(h=1, year_o=q["year"] - 1, quarter_o=q["quarter"])
+    a = rows[rows["quarter"] == 0]
+    ay = a.assign(h=1, year_o=a["year"] - 1, quarter_o=0)
+    return pd.concat([pp, py, ay], ignore_index=True)
+
+
+def _fisher_long(rows: pd.DataFrame, lu: Lookup, sid: np.ndarray, tsid: np.ndarray, sign: np.ndarray,
+                 group: np.ndarray) -> np.ndarray:
+    """Fisher contributions in current-price form, summed by aggregate, period and horizon."""
+    year, qn = rows["year"].to_numpy(), rows["quarter"].to_numpy()
+    yo, qo = rows["year_o"].to_numpy(), rows["quarter_o"].to_numpy()
+    x1, x0 = sign * lu.get("c", sid, year, qn), sign * lu.get("c", sid, yo, qo)
+    rel = (lu.get("c", tsid, year, qn) / lu.get("v", tsid, year, qn)) / (
+        lu.get("c", tsid, yo, qo) / lu.get("v", tsid, yo, qo))
+    ok = np.isfinite(x1) & np.isfinite(x0) & np.isfinite(rel)
+
+    def total(x: np.ndarray) -> np.ndarray:
+        return np.bincount(group, weights=np.where(ok, x, 0.0))[group]
+
+    v1, v0, s0r, s1r = total(x1), total(x0), total(x0 * rel), total(x1 / rel)
+    p_f = np.sqrt((s0r / v0) * (v1 / s1r))
+    q_f = (v1 / v0) / p_f
+    num = (v1 / v0) * (x1 / rel - x0) + q_f * (x1 - x0 * rel)
+    return np.where(ok, 100.0 * num / (v1 + q_f * s0r), np.nan)
+
+
+# --------------------------------------------------------------- Fisher helpers (wide frames)
+def _prices_quantities(values: pd.DataFrame, prices: pd.DataFrame | None, volumes: pd.DataFrame | None,
+                       signs: Mapping[str, int] | None) -> tuple[pd.DataFrame, pd.DataFrame]:
+    if (prices is None) == (volumes is None):
+        raise ValueError("give exactly one of prices and volumes")
+    x = values.astype("float64")
+    if prices is not None:
+        p = prices.reindex_like(x).astype("float64")
+        q = x / p
+    else:
+        q = volumes.reindex_like(x).astype("float64")
+        p = x / q
+    if signs:
+        q = q * pd.Series({c: float(signs.get(c, 1)) for c in x.columns})
+    return p, q
+
+
+def index_relatives(values: pd.DataFrame, prices: pd.DataFrame | None = None, *,
+                    volumes: pd.DataFrame | None = None, signs: Mapping[str, int] | None = None) -> pd.DataFrame:
+    """Laspeyres, Paasche and Fisher volume and price relatives on the previous period.
+
+    Parameters
+    ----------
+    values
+        Current-price values, rows periods in order, columns items.
+    prices, volumes
+        Exactly one: price indexes (any base) or volumes of the same items.
+    signs
+        Item -> -1 for items subtracted (imports: negative quantities).
+
+    Returns
+    -------
+    DataFrame
+        Columns laspeyres_volume, paasche_volume, fisher_volume, laspeyres_price,
+        paasche_price, fisher_price (ratios; NaN in the first period).
+
+    Notes
+    -----
+    Q^L = sum p_{t-1} q_t / sum p_{t-1} q_{t-1}, Q^P = sum p_t q_t / sum p_t q_{t-1},
+    Q^F = sqrt(Q^L Q^P); P^L, P^P, P^F likewise; P^F Q^F = V_t / V_{t-1} exactly.
+
+    References
+    ----------
+    BEA, *Survey of Current Business*, May 1996, box "Basic formulas"; ESA 95 ¶10.62;
+    Statistics Canada, 13-017-X (2008), Table 2.12.
+    """
+    p, q = _prices_quantities(values, prices, volumes, signs)
+    p0, q0 = p.shift(), q.shift()
+    s00, s01 = (p0 * q0).sum(axis=1, min_count=1), (p0 * q).sum(axis=1, min_count=1)
+    s10, s11 = (p * q0).sum(axis=1, min_count=1), (p * q).sum(axis=1, min_count=1)
+    out = pd.DataFrame({"laspeyres_volume": s01 / s00, "paasche_volume": s11 / s10,
+                        "laspeyres_price": s10 / s00, "paasche_price": s11 / s01}, index=values.index)
+    out.insert(2, "fisher_volume", np.sqrt(out["laspeyres_volume"] * out["paasche_volume"]))
+    out["fisher_price"] = np.sqrt(out["laspeyres_price"] * out["paasche_price"])
+    return out
+
+
+def laspeyres_index(values: pd.DataFrame, prices: pd.DataFrame | None = None, *, volumes=None, signs=None,
+                    kind: str = "volume") -> pd.Series:
+    """Unlinked Laspeyres index, previous period = 100 (``kind`` volume or price)."""
+    return 100.0 * index_relatives(values, prices, volumes=volumes, signs=signs)[f"laspeyres_{kind}"]
+
+
+def paasche_index(values: pd.DataFrame, prices: pd.DataFrame | None = None, *, volumes=None, signs=None,
+                  kind: str = "volume") -> pd.Series:
+    """Unlinked Paasche index, previous period = 100 (``kind`` volume or price)."""
+    return 100.0 * index_relatives(values, prices, volumes=volumes, signs=signs)[f"paasche_{kind}"]
+
+
+def fisher_index(values: pd.DataFrame, prices: pd.DataFrame | None = None, *, volumes=None, signs=None,
+                 kind: str = "volume") -> pd.Series:
+    """Unlinked Fisher index, previous period = 100 (``kind`` volume or price)."""
+    return 100.0 * index_relatives(values, prices, volumes=volumes, signs=signs)[f"fisher_{kind}"]
+
+
+def chain_index(unlinked: pd.Series, base: float = 100.0) -> pd.Series:
+    """Link an index on the previous period (= 100) into a chain, first period = ``base``."""
+    return base * (unlinked.fillna(100.0) / 100.0).cumprod()
+
+
+def fisher_contributions(values: pd.DataFrame, prices: pd.DataFrame | None = None, *,
+                         volumes: pd.DataFrame | None = None,
+                         signs: Mapping[str, int] | None = None) -> pd.DataFrame:
+    """Contributions (pp) of each item to the Fisher volume growth on the previous period.
+
+    Notes
+    -----
+    ctr_i = 100 (p_{i,t-1} + p_{i,t}/P^F)(q_{i,t} - q_{i,t-1}) / sum_j (p_{j,t-1} + p_{j,t}/P^F) q_{j,t-1},
+    summing to 100 (Q^F - 1) (METHODS.md 3.5).
+
+    References
+    ----------
+    Statistics Canada, 13-017-X (2008), Table 2.12; BEA, *A Guide to the NIPAs*, App. 3.
+
+    Examples
+    --------
+    >>> x = pd.DataFrame({"A": [10.0, 12.0], "B": [10.0, 10.0]})
+    >>> fisher_contributions(x, pd.DataFrame({"A": [1.0, 1.0], "B": [1.0, 1.0]})).iloc[1].tolist()
+    [10.0, 0.0]
+    """
+    p, q = _prices_quantities(values, prices, volumes, signs)
+    pf = index_relatives(values, prices, volumes=volumes, signs=signs)["fisher_price"]
+    weight = p.shift() + p.div(pf, axis=0)
+    return 100.0 * (weight * (q - q.shift())).div((weight * q.shift()).sum(axis=1, min_count=1), axis=0)
+
+
+def fisher_price_contributions(values: pd.DataFrame, prices: pd.DataFrame | None = None, *,
+                               volumes: pd.DataFrame | None = None,
+                               signs: Mapping[str, int] | None = None) -> pd.DataFrame:
+    """Contributions (pp) of each item to the Fisher price change on the previous period.
+
+    Notes
+    -----
+    ctr^P_i = 100 (q_{i,t-1} + q_{i,t}/Q^F)(p_{i,t} - p_{i,t-1}) / sum_j (q_{j,t-1} + q_{j,t}/Q^F) p_{j,t-1},
+    summing to 100 (P^F - 1) (METHODS.md 3.5, price side).
+    """
+    p, q = _prices_quantities(values, prices, volumes, signs)
+    qf = index_relatives(values, prices, volumes=volumes, signs=signs)["fisher_volume"]
+    weight = q.shift() + q.div(qf, axis=0)
+    return 100.0 * (weight * (p - p.shift())).div((weight * p.shift()).sum(axis=1, min_count=1), axis=0)
+
+
+def fisher_contribution_weights(values: pd.DataFrame, prices: pd.DataFrame | None = None, *,
+                                volumes: pd.DataFrame | None = None,
+                                signs: Mapping[str, int] | None = None) -> pd.DataFrame:
+    """Fisher contributions in weight form: ctr_i = W1_i W2_i g_i.
+
+    Returns
+    -------
+    DataFrame
+        Long: period, item, contribution_pp, own_volume_growth_pct (g_i),
+        weight_w1 (x_{i,t-1}/V_{t-1}) and weight_w2 ((1 + r_i/P^F) / (1 + P^L/P^F)),
+        r_i = p_{i,t}/p_{i,t-1}; the first period is left out.
+
+    References
+    ----------
+    Statistics Canada, 13-017-X (2008), Table 2.12 (weights W1 and W2).
+    """
+    p, q = _prices_quantities(values, prices, volumes, signs)
+    rel = index_relatives(values, prices, volumes=volumes, signs=signs)
+    x0 = (p * q).shift()
+    w1 = x0.div(x0.sum(axis=1, min_count=1), axis=0)
+    w2 = (1.0 + (p / p.shift()).div(rel["fisher_price"], axis=0)).div(
+        1.0 + rel["laspeyres_price"] / rel["fisher_price"], axis=0)
+    g = 100.0 * (q / q.shift() - 1.0)
+    parts = {"contribution_pp": w1 * w2 * g, "own_volume_growth_pct": g, "weight_w1": w1, "weight_w2": w2}
+    long = pd.concat({k: v.stack(future_stack=True) for k, v in parts.items()}, axis=1)
+    long.index.names = ["period", "item"]
+    return long.dropna(how="all").reset_index()

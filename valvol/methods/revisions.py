@@ -1,0 +1,440 @@
+"""Revisions between published vintages: revision table, summary statistics, triangles.
+
+A vintage is given as its tables keyed by name (``levels``, ``deflators``, ``growth``,
+``volume_contributions``, ``deflator_contributions``; a missing table is skipped). Every
+table is first put in one long shape, one row per (economy, period, frequency, item,
+measure), where ``measure`` names what is compared:
+
+==============================================  ===============================================
+measure                                         from
+==============================================  ===============================================
+``level_current``, ``level_previous_year``,     ``levels.value`` by ``price_basis``
+``level_chain_linked``
+``deflator``                                    ``deflators.deflator``
+``growth_<m>_<horizon>``                        ``growth.pct``, m in volume / price / value,
+                                                horizon in prev_period / prev_year (percent)
+``contribution_volume_<aggregate>_<horizon>``   ``volume_contributions.contribution_pp``
+``contribution_deflator_<aggregate>_<horizon>`` ``deflator_contributions.contribution_pp``
+==============================================  ===============================================
+
+The contributing component is the ``item``; the aggregate (an SDMX code, which may itself
+hold underscores) sits between the prefix and the horizon, which is always the last
+``prev_period`` / ``prev_year`` suffix, so `split_contribution_measure` recovers both.
+Growth revisions are revisions of the growth rates published *within* each vintage (never
+growth recomputed from revised levels), in percentage points, as are contribution revisions.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+
+import numpy as np
+import pandas as pd
+from scipy import stats
+
+from valvol.errors import ConfigError, InputError, Problem
+
+#: Output columns of `revisions`.
+REVISION_COLUMNS = ["economy", "period", "frequency", "item", "measure", "earlier", "later", "revision",
+                    "reference_year_changed"]
+#: Output columns of `revision_summary` (after the group keys).
+SUMMARY_COLUMNS = ["n", "mr", "mar", "rmar", "rmsr", "sd", "t_stat", "critical_value", "significant",
+                   "test_convention"]
+#: Measures whose values depend on the reference year of the chain-linked volumes.
+REFERENCE_DEPENDENT = ("level_chain_linked", "deflator")
+#: Relative tolerance of "annual chain-linked = current" when finding the reference year.
+REFERENCE_TOLERANCE = 1e-6
+
+_KEY = ["economy", "period", "frequency", "item", "measure"]
+_SOURCES = {  # table -> (columns it must have, value column)
+    "levels": (["economy", "period", "frequency", "item", "price_basis", "value"], "value"),
+    "deflators": (["economy", "period", "frequency", "item", "deflator"], "deflator"),
+    "growth": (["economy", "period", "frequency", "item", "measure", "horizon", "pct"], "pct"),
+    "volume_contributions": (["economy", "period", "frequency", "aggregate", "item", "horizon",
+                              "contribution_pp"], "contribution_pp"),
+    "deflator_contributions": (["economy", "period", "frequency", "aggregate", "item", "horizon",
+                                "contribution_pp"], "contribution_pp"),
+}
+
+
+def long_measures(tables: Mapping[str, pd.DataFrame], *, vintage: str = "") -> pd.DataFrame:
+    """All comparable values of one vintage in long form (module docstring for the labels).
+
+    Returns
+    -------
+    DataFrame
+        Columns economy, period, frequency, item, measure, value; rows with a missing value
+        are dropped.
+
+    Raises
+    ------
+    InputError
+        A table lacks columns, or gives the same series and period twice.
+    """
+    parts = []
+    for name, (cols, value) in _SOURCES.items():  # over the five table kinds, not over series
+        t = tables.get(name)
+        if t is None:
+            continue
+        missing = [c for c in cols if c not in t.columns]
+        if missing:
+            raise InputError([Problem(file=name, reason=f"vintage {vintage or '?'}: table lacks column(s) "
+                                                          f"{', '.join(missing)}")])
+        if name == "levels":
+            label = "level_" + t["price_basis"].astype(str)
+        elif name == "deflators":
+            label = pd.Series("deflator", index=t.index)
+        elif name == "growth":
+            label = "growth_" + t["measure"].astype(str) + "_" + t["horizon"].astype(str)
+        else:
+            kind = "volume" if name == "volume_contributions" else "deflator"
+            label = f"contribution_{kind}_" + t["aggregate"].astype(str) + "_" + t["horizon"].astype(str)
+        part = pd.DataFrame({"economy": t["economy"].astype(str), "period": t["period"].astype(str),
+                             "frequency": t["frequency"].astype(str), "item": t["item"].astype(str),
+                             "measure": label.astype(str), "value": t[value].astype("float64"),
+                             "table": name})
+        parts.append(part)
+    if not parts:
+        return pd.DataFrame({c: pd.Series(dtype="str") for c in _KEY} | {"value": pd.Series(dtype="float64")})
+    d = pd.concat(parts, ignore_index=True)
+    dup = d.duplicated(_KEY, keep="first")
+    if dup.any():
+        raise InputError([Problem(file=r.table, economy=r.economy, item=r.item, period=r.period,
+                                  reason=f"vintage {vintage or '?'}: {r.measure} given more than once")
+                          for r in d.loc[dup].itertuples(index=False)])
+    return d.dropna(subset=["value"]).drop(columns="table").reset_index(drop=True)
+
+
+def reference_years(levels: pd.DataFrame, *, tolerance: float = REFERENCE_TOLERANCE) -> pd.DataFrame:
+    """Reference year of the chain-linked volumes of each economy in one vintage.
+
+    Returns
+    -------
+    DataFrame
+        Columns economy, reference_year (Int64): the first-ranked year. Economies without any
+        matching year are absent.
+
+    Notes
+    -----
+    In the reference year r the annual chain-linked volume equals the value at current prices,
+    CLV_r = C_r (annual overlap, METHODS.md sections 1 and 2). A year matches an item when
+    |CLV_y / C_y - 1| < tolerance. Years rank by: B1GQ matches, then the number of matching
+    items, then the B1GQ deviation, then the year. Several years can tie for first (e.g. CLV = C
+    in every year); `reference_year_changes` compares all of them.
+    """
+    cand = _reference_candidates(levels, tolerance)
+    first = cand.drop_duplicates("economy")
+    return pd.DataFrame({"economy": first["economy"].astype(str),
+                         "reference_year": first["year"].astype("Int64")}).reset_index(drop=True)
+
+
+def _reference_candidates(levels: pd.DataFrame, tolerance: float) -> pd.DataFrame:
+    """Every year tied for first rank per economy (economy, year), best first."""
+    missing = [c for c in _SOURCES["levels"][0] if c not in levels.columns]
+    if missing:
+        raise InputError([Problem(file="levels", reason=f"table lacks column(s) {', '.join(missing)}")])
+    lv = levels.loc[levels["frequency"].eq("A") & levels["price_basis"].isin(["current", "chain_linked"]),
+                    ["economy", "period", "item", "price_basis", "value"]]
+    wide = lv.pivot_table(index=["economy", "period", "item"], columns="price_basis", values="value",
+                          aggfunc="first").reindex(columns=["current", "chain_linked"]).reset_index()
+    wide = wide.loc[wide["current"].ne(0) & wide["current"].notna() & wide["chain_linked"].notna()]
+    dev = (wide["chain_linked"] / wide["current"] - 1.0).abs()
+    gdp = wide["item"].eq("B1GQ")
+    y = pd.DataFrame({"economy": wide["economy"].astype(str), "year": wide["period"].str[:4].astype("int64"),
+                      "match": dev < tolerance, "gdp_match": gdp & (dev < tolerance),
+                      "gdp_dev": dev.where(gdp)})
+    y = y.groupby(["economy", "year"], as_index=False).agg(
+        gdp_match=("gdp_match", "any"), n_match=("match", "sum"), gdp_dev=("gdp_dev", "min"))
+    y = y.loc[y["gdp_match"] | y["n_match"].gt(0)]
+    y = y.sort_values(["economy", "gdp_match", "n_match", "gdp_dev", "year"],
+                      ascending=[True, False, False, True, True], kind="mergesort", ignore_index=True)
+    best = y.drop_duplicates("economy")[["economy", "gdp_match", "n_match"]]
+    return y.merge(best, on=["economy", "gdp_match", "n_match"], sort=False)[["economy", "year"]]
+
+
+def reference_year_changes(earlier: Mapping[str, pd.DataFrame], later: Mapping[str, pd.DataFrame],
+                           *, tolerance: float = REFERENCE_TOLERANCE) -> pd.DataFrame:
+    """Economies whose chain-linked reference year differs between two vintages.
+
+    Returns
+    -------
+    DataFrame
+        Columns economy, earlier_reference_year, later_reference_year (Int64, NA when not
+        found), changed: True when a reference year was found in both vintages and no year tied
+        for first in one is tied for first in the other. Not found in either: not changed.
+    """
+    empty = pd.DataFrame({"economy": pd.Series(dtype="str"), "year": pd.Series(dtype="int64")})
+    ce, cl = (_reference_candidates(t["levels"], tolerance) if "levels" in t else empty
+              for t in (earlier, later))
+    shared = ce.merge(cl, on=["economy", "year"])["economy"].unique()
+    m = (ce.drop_duplicates("economy").merge(cl.drop_duplicates("economy"), on="economy", how="outer",
+                                               suffixes=("_e", "_l"), sort=True))
+    both = m["year_e"].notna() & m["year_l"].notna()
+    return pd.DataFrame({"economy": m["economy"].astype(str),
+                         "earlier_reference_year": m["year_e"].astype("Int64"),
+                         "later_reference_year": m["year_l"].astype("Int64"),
+                         "changed": (both & ~m["economy"].isin(shared)).astype(bool)})
+
+
+def revisions(earlier: dict[str, pd.DataFrame], later: dict[str, pd.DataFrame]) -> pd.DataFrame:
+    """Revisions, later minus earlier, of every value the two vintages have in common.
+
+    Parameters
+    ----------
+    earlier, later
+        The tables of two vintages keyed by table name; ``later`` is the more recent vintage.
+
+    Returns
+    -------
+    DataFrame
+        Table ``revisions``: economy, period, frequency, item, measure (labels in the module
+        docstring), earlier, later, revision, reference_year_changed. Only keys present with a
+        value in both vintages appear. ``reference_year_changed`` is True for every row of an
+        economy whose chain-linked reference year differs between the vintages; for those
+        economies the ``level_chain_linked`` and ``deflator`` rows are left out (their revisions
+        would mix a re-referencing with a revision). ``attrs["notes"]`` repeats this in words.
+
+    Raises
+    ------
+    InputError
+        A table lacks columns or repeats a key.
+
+    Notes
+    -----
+    R_t = L_t - P_t, L the later and P the earlier estimate of the same period and measure;
+    a positive revision means the earlier estimate was too low. Growth rates and contributions
+    are those published within each vintage, so their revisions are in percentage points.
+    The reference year is found by `reference_years`.
+
+    References
+    ----------
+    OECD/Eurostat, *Guidelines on Revisions Policy and Analysis* (names and sign convention);
+    Office for Statistics Regulation, review of UK GDP revisions, Annex A (METHODS.md section 8).
+    """
+    e = long_measures(earlier, vintage="earlier")
+    lt = long_measures(later, vintage="later")
+    m = e.merge(lt, on=_KEY, how="inner", suffixes=("_e", "_l"))
+    changes = reference_year_changes(earlier, later)
+    rebased = changes.loc[changes["changed"]]
+    flag = m["economy"].isin(rebased["economy"])
+    m = m.loc[~(flag & m["measure"].isin(REFERENCE_DEPENDENT))]
+    out = pd.DataFrame({**{c: m[c] for c in _KEY}, "earlier": m["value_e"], "later": m["value_l"],
+                        "revision": m["value_l"] - m["value_e"], "reference_year_changed": flag.loc[m.index]})
+    out = out.sort_values(["economy", "item", "measure", "frequency", "period"], kind="mergesort",
+                          ignore_index=True)
+    out["reference_year_changed"] = out["reference_year_changed"].astype(bool)
+    out.attrs["notes"] = tuple(
+        f"{r.economy}: chain-linked reference year {r.earlier_reference_year} in the earlier vintage, "
+        f"{r.later_reference_year} in the later; level_chain_linked and deflator revisions left out"
+        for r in rebased.itertuples(index=False))
+    return out
+
+
+def revision_summary(revs: pd.DataFrame, *, test: str = "student_t", hac_lags: int | None = None,
+                     alpha: float = 0.05, by: Sequence[str] = ()) -> pd.DataFrame:
+    """Summary statistics and bias test of revisions, per series.
+
+    Parameters
+    ----------
+    revs
+        A `revisions` table (at least economy, frequency, item, measure, period, later,
+        revision).
+    test
+        ``"student_t"`` (critical value of Student's t with n - 1 degrees of freedom) or
+        ``"normal"``.
+    hac_lags
+        None for the plain t-test; an integer L >= 0 for the HAC (Newey-West) variance with
+        Bartlett weights and L lags (L = 1 is the project's default choice; L = 0 gives the
+        plain test).
+    alpha
+        Size of the two-tailed test.
+    by
+        Further grouping columns of ``revs`` (e.g. a revision horizon or vintage pair).
+
+    Returns
+    -------
+    DataFrame
+        One row per economy, frequency, item, measure (and ``by``): n, mr, mar, rmar, rmsr,
+        sd (s_R, or sqrt(s^2_HAC) with ``hac_lags``), t_stat, critical_value, significant
+        (nullable boolean), test_convention.
+        With n < 2 the test columns (sd, t_stat, critical_value, significant) are missing;
+        mr, mar, rmar and rmsr are defined for n >= 1. rmar is NaN when sum |L| = 0.
+
+    Raises
+    ------
+    ConfigError
+        Unknown ``test``, ``alpha`` outside (0, 1), negative ``hac_lags``.
+    InputError
+        Columns missing.
+
+    Notes
+    -----
+    MR = sum R_t / n; MAR = sum |R_t| / n; RMAR = sum |R_t| / sum |L_t|; RMSR = sqrt(sum R_t^2 / n).
+    Bias test: t = MR / (s_R / sqrt n), s_R^2 = sum (R_t - MR)^2 / (n - 1), two-tailed,
+    significant when |t| > critical value. HAC: e_t = R_t - MR,
+    s^2_HAC = [sum e_t^2 + 2 sum_{l=1..L} (1 - l/(L+1)) sum_t e_t e_{t-l}] / (n - 1),
+    t = MR / sqrt(s^2_HAC / n); lags run over consecutive rows in period order. With s = 0,
+    t = 0 when MR = 0 and +-inf otherwise (every revision equal and non-zero).
+
+    References
+    ----------
+    OECD/Eurostat, *Guidelines on Revisions Policy and Analysis* (MR, MAR, RMAR, RMSR, bias
+    test); ONS, *GDP revisions in Blue Book 2020* (2023), Table 1 (two-tailed 5% test);
+    Newey & West (1987), Econometrica 55(3) (Bartlett-weighted HAC variance); METHODS.md section 8.
+    """
+    if test not in ("student_t", "normal"):
+        raise ConfigError(f"revision test must be 'student_t' or 'normal', not {test!r}")
+    if not 0.0 < float(alpha) < 1.0:
+        raise ConfigError(f"alpha must lie strictly between 0 and 1, not {alpha!r}")
+    if hac_lags is not None and (int(hac_lags) != hac_lags or hac_lags < 0):
+        raise ConfigError(f"hac_lags must be a non-negative integer or None, not {hac_lags!r}")
+    keys = ["economy", "frequency", "item", "measure", *by]
+    missing = [c for c in [*keys, "period", "later", "revision"] if c not in revs.columns]
+    if missing:
+        raise InputError([Problem(file="revisions", reason=f"table lacks column(s) {', '.join(missing)}")])
+    d = revs.loc[revs["revision"].notna(), [*keys, "period", "later", "revision"]]
+    d = d.sort_values([*keys, "period"], kind="mergesort", ignore_index=True)
+    r = d["revision"].astype("float64")
+    d = d.assign(r=r, abs_r=r.abs(), abs_l=d["later"].astype("float64").abs(), sq_r=r * r)
+    g = d.groupby(keys, sort=True)
+    a = g.agg(n=("r", "size"), sum_r=("r", "sum"), sum_abs=("abs_r", "sum"), sum_abs_l=("abs_l", "sum"),
+              sum_sq=("sq_r", "sum"))
+    n = a["n"].astype("float64")
+    mr = a["sum_r"] / n
+    d["e"] = d["r"] - g["r"].transform("mean")
+    d["ee"] = d["e"] * d["e"]
+    ss = d.groupby(keys, sort=True)["ee"].sum()
+    lags = 0 if hac_lags is None else int(hac_lags)
+    for lag in range(1, lags + 1):  # over lags, each vectorised over the panel
+        lagged = d.groupby(keys, sort=True)["e"].shift(lag)
+        cross = (d["e"] * lagged).groupby([d[k] for k in keys], sort=True).sum()
+        ss = ss + 2.0 * (1.0 - lag / (lags + 1.0)) * cross
+    enough = n >= 2
+    s2 = (ss / (n - 1.0)).where(enough).clip(lower=0.0)
+    sd = np.sqrt(s2)
+    se = sd / np.sqrt(n)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t = np.where(se > 0, mr / se, np.where(mr == 0, 0.0, np.sign(mr) * np.inf))
+    t = pd.Series(t, index=a.index).where(enough)
+    q = 1.0 - float(alpha) / 2.0
+    if test == "student_t":
+        crit = pd.Series(stats.t.ppf(q, np.where(enough, n - 1.0, np.nan)), index=a.index)
+    else:
+        crit = pd.Series(stats.norm.ppf(q), index=a.index).where(enough)
+    sig = pd.Series((t.abs() > crit).to_numpy(), index=a.index, dtype="boolean").where(enough, pd.NA)
+    rmar = (a["sum_abs"] / a["sum_abs_l"]).where(a["sum_abs_l"] > 0)
+    out = pd.DataFrame({"n": a["n"].astype("int64"), "mr": mr, "mar": a["sum_abs"] / n, "rmar": rmar,
+                        "rmsr": np.sqrt(a["sum_sq"] / n), "sd": sd.where(enough), "t_stat": t,
+                        "critical_value": crit, "significant": sig,
+                        "test_convention": _convention(test, hac_lags, float(alpha))})
+    out = out.reset_index()
+    return out[[*keys, *SUMMARY_COLUMNS]]
+
+
+def _convention(test: str, hac_lags: int | None, alpha: float) -> str:
+    dist = "Student-t(n-1)" if test == "student_t" else "normal"
+    size = f"two-tailed {100 * alpha:g}%"
+    if hac_lags is None:
+        return f"t = MR/(s/sqrt n), s with n-1, {dist}, {size}"
+    return (f"t = MR/sqrt(s2_HAC/n), s2_HAC Newey-West Bartlett L={int(hac_lags)} with n-1, "
+            f"{dist}, {size}")
+
+
+def revision_triangle(vintages: list[tuple[str, dict[str, pd.DataFrame]]], *, item: str, measure: str,
+                      economy: str, frequency: str | None = None) -> pd.DataFrame:
+    """Revision triangle of one series: reference periods by vintages.
+
+    Parameters
+    ----------
+    vintages
+        (name, tables) pairs; columns are ordered by name (names start with a UTC timestamp).
+    item, measure, economy
+        The series; ``measure`` is a label of the module docstring.
+    frequency
+        ``"Q"`` or ``"A"``; None keeps every frequency the series has.
+
+    Returns
+    -------
+    DataFrame
+        Index ``period`` (sorted by frequency then period), one column per vintage name, values
+        the estimate of that period in that vintage (NaN where the vintage has none).
+
+    Raises
+    ------
+    InputError
+        Two vintages share a name; a table is malformed; or ``measure`` is ``level_chain_linked``
+        or ``deflator`` and the chain-linked reference year changes between vintages.
+
+    References
+    ----------
+    OECD, Main Economic Indicators revisions database (layout: rows reference periods, columns
+    vintages, diagonals k-th estimates); ONS revisions triangles; METHODS.md section 8.
+    """
+    names = [str(v[0]) for v in vintages]
+    dupes = sorted({x for x in names if names.count(x) > 1})
+    if dupes:
+        raise InputError([Problem(economy=economy, item=item, reason=f"vintage {x} given more than once")
+                          for x in dupes])
+    order = sorted(range(len(vintages)), key=lambda i: names[i])
+    parts = []
+    for i in order:  # over vintages, each vectorised
+        d = long_measures(vintages[i][1], vintage=names[i])
+        sel = d["economy"].eq(economy) & d["item"].eq(item) & d["measure"].eq(measure)
+        if frequency is not None:
+            sel &= d["frequency"].eq(frequency)
+        parts.append(d.loc[sel, ["frequency", "period", "value"]].assign(vintage=names[i]))
+    if measure in REFERENCE_DEPENDENT:
+        _require_same_reference(vintages, order, names, economy, item)
+    cols = [names[i] for i in order]
+    if not parts:
+        return pd.DataFrame(columns=cols, index=pd.Index([], name="period"), dtype="float64")
+    d = pd.concat(parts, ignore_index=True)
+    tri = d.pivot_table(index=["frequency", "period"], columns="vintage", values="value", aggfunc="first")
+    tri = tri.reindex(columns=cols).sort_index(kind="mergesort").droplevel("frequency")
+    tri.columns.name = None
+    return tri.astype("float64")
+
+
+def _require_same_reference(vintages, order, names, economy, item) -> None:
+    """No change of chain-linked reference year between consecutive vintages (by name)."""
+    tabs = [vintages[i][1] for i in order]
+    for k in range(1, len(tabs)):  # over consecutive vintage pairs, each vectorised
+        ch = reference_year_changes(tabs[k - 1], tabs[k])
+        ch = ch.loc[ch["changed"] & ch["economy"].eq(economy)]
+        if len(ch):
+            r = ch.iloc[0]
+            raise InputError([Problem(economy=economy, item=item, price_basis="chain_linked",
+                                      reason=f"reference year {r['earlier_reference_year']} in vintage "
+                                             f"{names[order[k - 1]]} but {r['later_reference_year']} in "
+                                             f"{names[order[k]]}: re-reference before a triangle of "
+                                             "chain-linked levels or deflators")])
+
+
+def kth_estimates(triangle: pd.DataFrame) -> pd.DataFrame:
+    """First, second, ... estimate of each reference period (the diagonals of a triangle).
+
+    Returns
+    -------
+    DataFrame
+        Same index as ``triangle``; columns ``estimate_1`` ... ``estimate_K`` (K the number of
+        vintages): the k-th non-missing value of each row, in column (vintage) order; NaN when a
+        period has fewer than k estimates.
+    """
+    v = triangle.to_numpy(dtype="float64")
+    has = ~np.isnan(v)
+    pos = np.argsort(~has, axis=1, kind="stable")
+    vals = np.take_along_axis(v, pos, axis=1)
+    vals[np.arange(v.shape[1])[None, :] >= has.sum(axis=1)[:, None]] = np.nan
+    cols = [f"estimate_{k}" for k in range(1, v.shape[1] + 1)]
+    return pd.DataFrame(vals, index=triangle.index, columns=cols)
+
+
+def split_contribution_measure(measure: pd.Series) -> pd.DataFrame:
+    """Kind (volume / deflator), aggregate and horizon of ``contribution_*`` measure labels.
+
+    Other labels give missing values.
+    """
+    s = measure.astype(str)
+    ext = s.str.extract(r"^contribution_(volume|deflator)_(.+)_(prev_period|prev_year)$")
+    ext.columns = ["kind", "aggregate", "horizon"]
+    return ext
