@@ -295,7 +295,8 @@ def test_two_step_contributions_add_up(make_panel, seed, annual_rate):
     the aggregate's chain-linked growth for every horizon: residual < 1e-9."""
     panel, h = _quarterly_panel(make_panel, seed, annual_rate=annual_rate)
     out = volume_contributions(panel, hierarchy=h, annual_rate=annual_rate)
-    assert set(out["aggregate"]) == {"T", "B"}
+    assert set(zip(out["aggregate"], out["item"], strict=True)) == {(a, i) for a, i, _ in h.edges()}
+    assert set(out["economy"]) == {"E0", "E1", "E2"}
     assert out["residual_pp"].abs().max() < 1e-9
 
 

@@ -88,13 +88,10 @@ def levels_wide(levels: pd.DataFrame, bases: Mapping[str, str]) -> pd.DataFrame:
     mat[inverse, b_code] = df["value"].to_numpy()
     q = keys % 5
     rest = keys // 5
-    wide = pd.DataFrame({"economy": pd.Series(np.asarray(economies, dtype=object)[rest // n_years // len(items)],
-                                              dtype="str"),
-                         "item": pd.Series(np.asarray(items, dtype=object)[(rest // n_years) % len(items)],
-                                           dtype="str"),
-                         "frequency": np.where(q == 0, "A", "Q"),
+    wide = pd.DataFrame({"economy": category_strings(economies, rest // n_years // len(items)),
+                         "item": category_strings(items, (rest // n_years) % len(items)),
+                         "frequency": category_strings(["Q", "A"], (q == 0).astype("int64")),
                          "year": (rest % n_years + y_lo).astype("int64"), "quarter": q.astype("int64")})
-    wide["frequency"] = wide["frequency"].astype("str")
     for j, col in enumerate(cols):
         wide[col] = mat[:, j]
     return wide
@@ -159,22 +156,45 @@ class PanelCodes:
 
 
 class Lookup:
-    """Values of the columns of ``frame`` (which has sid, year, quarter) by series and period."""
+    """Values of the columns of ``frame`` (which has sid, year, quarter) by series and period.
+
+    Positions are kept in a dense array over the key space when it is small (a few million
+    keys for hundreds of economies, tens of items and decades of quarters), else in a hash
+    index. ``frame`` must have one row per key.
+    """
+
+    _DENSE_LIMIT = 50_000_000
 
     def __init__(self, codes: PanelCodes, frame: pd.DataFrame, columns: Iterable[str]) -> None:
         self.codes = codes
-        self.index = pd.Index(codes.key(frame["sid"].to_numpy(), frame["year"].to_numpy(),
-                                        frame["quarter"].to_numpy()))
+        keys = codes.key(frame["sid"].to_numpy(), frame["year"].to_numpy(), frame["quarter"].to_numpy())
+        size = len(codes.economies) * len(codes.items) * codes.n_years * 5
+        self.dense: np.ndarray | None = None
+        if size <= self._DENSE_LIMIT:
+            self.dense = np.full(size + 1, -1, dtype="int64")  # last slot: the "no key" -1
+            self.dense[keys] = np.arange(len(keys))
+            self.dense[-1] = -1
+        else:
+            self.index = pd.Index(keys)
         self.values = {c: frame[c].to_numpy(dtype="float64") for c in columns}
+
+    def positions(self, sid: np.ndarray, year: np.ndarray, quarter: np.ndarray | int) -> np.ndarray:
+        quarter = np.broadcast_to(np.asarray(quarter, dtype="int64"), np.shape(sid))
+        keys = self.codes.key(sid, year, quarter)
+        return self.dense[keys] if self.dense is not None else self.index.get_indexer(keys)
 
     def get(self, column: str, sid: np.ndarray, year: np.ndarray, quarter: np.ndarray | int) -> np.ndarray:
         """The column's values at ``(sid, year, quarter)``, NaN where absent."""
-        quarter = np.broadcast_to(np.asarray(quarter, dtype="int64"), np.shape(sid))
-        pos = self.index.get_indexer(self.codes.key(sid, year, quarter))
+        pos = self.positions(sid, year, quarter)
         out = np.full(pos.shape, np.nan)
         hit = pos >= 0
         out[hit] = self.values[column][pos[hit]]
         return out
+
+
+def category_strings(labels: Iterable[str], codes: np.ndarray) -> pd.Series:
+    """String column ``labels[codes]`` built by one take from the distinct labels."""
+    return pd.Series(pd.array(list(labels), dtype="str")).take(np.asarray(codes)).reset_index(drop=True)
 
 
 def nonpositive_problems(wide: pd.DataFrame, hierarchy: Hierarchy, columns: Mapping[str, str]) -> list[Problem]:
@@ -305,7 +325,8 @@ def chain_link(levels: pd.DataFrame, *, hierarchy: Hierarchy, method: str = "ann
     previous-year values of y0 exist, else the current-price value c(s,y0) (the only
     information there is; it leaves that year's within-year price movement in the
     volumes). They add up to CLV_{y0}, and all three techniques coincide for the first
-    link. Quarters of an incomplete year before the first complete year get no volume.
+    link. Quarters of an incomplete year before the first complete year get no volume (nor
+    does a series without any complete year).
 
     Sign-changing items (``hierarchy.is_sign_changing``: P52, P53, YA1, B11, ...) are not
     chained by ratios (METHODS.md 2.4, a variant of option (c), common practice): their
@@ -314,7 +335,10 @@ def chain_link(levels: pd.DataFrame, *, hierarchy: Hierarchy, method: str = "ann
     positive ancestor with data in the economy): CLV_i(t) = k_i(t) CLV^Z_{y-1} / C^Z_{y-1},
     or, in the item's first year, c_i(t) CLV^Z_y / C^Z_y; the same for all three
     techniques. An item with no such ancestor keeps its own previous-year values
-    unscaled (current values in its first year).
+    unscaled (current values in its first year). In the reference year such an item has
+    CLV_i,r = C_i,r only if its own price movement equals Z's, so the annual values of r
+    add up exactly only when the aggregate contains no sign-changing item; those of r+1
+    (and its quarters) add up under annual overlap in every case (CLV^Z_r / C^Z_r = 1).
 
     References
     ----------
@@ -336,14 +360,18 @@ def chain_link(levels: pd.DataFrame, *, hierarchy: Hierarchy, method: str = "ann
     if method not in METHODS:
         raise ConfigError(f"unknown chain-linking method {method!r}; expected one of {', '.join(METHODS)}")
     w = levels_wide(levels, {"current": "c", "previous_year": "k"})
-    counts = w.groupby(["economy", "item"])[["c", "k"]].transform("count")
-    w = w[(counts["c"] > 0) & (counts["k"] > 0)].reset_index(drop=True)
+    if w.empty:
+        return empty_levels()
+    codes = PanelCodes(w["economy"], [*pd.unique(w["item"]), *hierarchy.items], w["year"])
+    w["sid"] = codes.sid(w["economy"], w["item"])
+    n_sid = len(codes.economies) * len(codes.items)
+    both = (np.bincount(w["sid"], weights=w["c"].notna(), minlength=n_sid) > 0) & (
+        np.bincount(w["sid"], weights=w["k"].notna(), minlength=n_sid) > 0)
+    w = w[both[w["sid"].to_numpy()]].reset_index(drop=True)
     if w.empty:
         return empty_levels()
     w["sc"] = item_flags(w["item"], hierarchy.is_sign_changing)
     _raise(nonpositive_problems(w, hierarchy, {"c": "current", "k": "previous_year"}))
-    codes = PanelCodes(w["economy"], [*pd.unique(w["item"]), *hierarchy.items], w["year"])
-    w["sid"] = codes.sid(w["economy"], w["item"])
     if reference_year is not None:
         ref = pd.Series(int(reference_year), index=pd.unique(w["economy"]))
     else:
@@ -353,9 +381,9 @@ def chain_link(levels: pd.DataFrame, *, hierarchy: Hierarchy, method: str = "ann
     ann_lu = Lookup(codes, ann, ["c", "k", "clv", "fa"])
     y0 = ann.groupby("sid")["year"].min()
     tops = top_aggregates(hierarchy, w[w["sc"]], ann)
-    tops["top_sid"] = codes.sid(tops["economy"], tops["top"])
-    w = w.merge(tops[["economy", "item", "top_sid"]], on=["economy", "item"], how="left")
-    w["top_sid"] = w["top_sid"].fillna(-1).astype("int64")
+    top_of = np.full(n_sid, -1, dtype="int64")
+    top_of[codes.sid(tops["economy"], tops["item"])] = codes.sid(tops["economy"], tops["top"])
+    w["top_sid"] = top_of[w["sid"].to_numpy()]
 
     q = w[~w["sc"] & (w["frequency"] == "Q")].copy()
     q["y0"] = q["sid"].map(y0)

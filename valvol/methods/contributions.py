@@ -27,6 +27,7 @@ from valvol.hierarchy import Hierarchy
 from valvol.methods.chainlink import (
     Lookup,
     PanelCodes,
+    category_strings,
     item_flags,
     levels_wide,
     nonpositive_problems,
@@ -170,7 +171,7 @@ def volume_contributions(levels: pd.DataFrame, *, hierarchy: Hierarchy, conventi
     with np.errstate(divide="ignore", invalid="ignore"):
         ctr, growth = _compute(convention, rows, lu, sid, zsid, tsid, sign, annual_rate, group)
     keep = np.isfinite(ctr) & np.isfinite(growth)
-    rows, ctr, growth, group = rows[keep], ctr[keep], growth[keep], group[keep]
+    rows, zsid, ctr, growth, group = rows[keep], zsid[keep], ctr[keep], growth[keep], group[keep]
     residual = growth - np.bincount(group, weights=ctr)[group]
     # annual rows once more under the previous-period label
     dup = np.flatnonzero(rows["quarter"].to_numpy() == 0)
@@ -179,15 +180,14 @@ def volume_contributions(levels: pd.DataFrame, *, hierarchy: Hierarchy, conventi
     sid, zsid, year, quarter = (np.asarray(a)[take] for a in (rows["sid"], zsid, rows["year"], rows["quarter"]))
     order = np.lexsort((sid % n_items, h, quarter, year, quarter > 0, zsid % n_items, sid // n_items))
     take, h, sid, zsid, year, quarter = (a[order] for a in (take, h, sid, zsid, year, quarter))
-    items = codes.items.to_numpy(dtype=object)
     out = pd.DataFrame({
-        "economy": pd.Series(codes.economies.to_numpy(dtype=object)[sid // n_items], dtype="str"),
+        "economy": category_strings(codes.economies, sid // n_items),
         "period": pd.Series(period_labels(year, quarter), dtype="str"),
-        "frequency": pd.Series(np.where(quarter > 0, "Q", "A"), dtype="str"),
+        "frequency": category_strings(["A", "Q"], (quarter > 0).astype("int64")),
         "year": year, "quarter": quarter,
-        "aggregate": pd.Series(items[zsid % n_items], dtype="str"),
-        "item": pd.Series(items[sid % n_items], dtype="str"),
-        "horizon": pd.Series(np.asarray(HORIZONS, dtype=object)[h], dtype="str"),
+        "aggregate": category_strings(codes.items, zsid % n_items),
+        "item": category_strings(codes.items, sid % n_items),
+        "horizon": category_strings(HORIZONS, h),
         "contribution_pp": ctr[take], "aggregate_growth_pct": growth[take], "residual_pp": residual[take]})
     return out[OUTPUT_COLUMNS]
 
