@@ -19,8 +19,19 @@ from valvol.periods import PERIOD_PATTERN
 ECONOMY_PATTERN = r"^[A-Z0-9_]{2,16}$"
 
 
-def input_rows(allowed_items: frozenset[str], sign_changing: frozenset[str]) -> pa.DataFrameSchema:
-    """Schema of parsed input rows for one configuration's allowed and sign-changing items."""
+INDEX_BASIS = "index"
+
+
+def input_rows(
+    allowed_items: frozenset[str], sign_changing: frozenset[str], price_indexes: frozenset[str] = frozenset({"CPI"})
+) -> pa.DataFrameSchema:
+    """Schema of parsed input rows for one configuration's allowed, sign-changing and index items.
+
+    Price indexes (e.g. a consumer price index ``CPI``) come with ``price_basis`` ``index``,
+    monthly (``YYYY-MM``) or quarterly, strictly positive; accounts items never do.
+    """
+    indexes = sorted(price_indexes)
+    bases = (*PRICE_BASES, INDEX_BASIS)
     return pa.DataFrameSchema(
         {
             "source_file": pa.Column(str),
@@ -42,7 +53,7 @@ def input_rows(allowed_items: frozenset[str], sign_changing: frozenset[str]) -> 
                 ],
             ),
             "price_basis": pa.Column(
-                str, pa.Check.isin(PRICE_BASES, error=f"price_basis must be one of {', '.join(PRICE_BASES)}")
+                str, pa.Check.isin(bases, error=f"price_basis must be one of {', '.join(bases)}")
             ),
             "value": pa.Column(
                 float,
@@ -61,6 +72,21 @@ def input_rows(allowed_items: frozenset[str], sign_changing: frozenset[str]) -> 
                 lambda df: ~(df["value"] < 0) | df["item"].isin(sorted(sign_changing)),
                 error="negative level of an item that cannot be negative",
                 name="non_negative",
+            ),
+            pa.Check(
+                lambda df: df["item"].isin(indexes) == df["price_basis"].eq(INDEX_BASIS),
+                error=f"price_basis index is for price indexes ({', '.join(indexes)}) and only for them",
+                name="index_basis",
+            ),
+            pa.Check(
+                lambda df: ~df["frequency"].eq("M") | df["price_basis"].eq(INDEX_BASIS),
+                error="monthly periods (YYYY-MM) are for price indexes only",
+                name="monthly_only_indexes",
+            ),
+            pa.Check(
+                lambda df: ~df["price_basis"].eq(INDEX_BASIS) | ~(df["value"] <= 0),
+                error="a price index must be positive",
+                name="index_positive",
             ),
         ],
         strict=False,

@@ -122,5 +122,6 @@ TABLES = {
     "checks": checks,
     "volume_contributions": contributions,
     "deflator_contributions": contributions,
+    "income_contributions": contributions,
     "price_gaps": price_gaps,
 }

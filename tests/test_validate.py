@@ -50,7 +50,7 @@ def test_every_row_problem_is_reported_with_file_row_series_period(accounts, tmp
         (5, "economy code must be 2-16 characters of A-Z, 0-9, _"),
         (6, "period must be YYYY-Qn, YYYYQn or YYYY"),
         (7, "item is not a known SNA code; declare it in [aggregates] of valvol.toml"),
-        (8, "price_basis must be one of current, previous_year, chain_linked"),
+        (8, "price_basis must be one of current, previous_year, chain_linked, index"),
         (9, "duplicate of accounts.csv:2"),
         (11, "value must be a finite number"),
     }
@@ -131,3 +131,31 @@ def test_empty_folder(tmp_path):
     (tmp_path / "empty").mkdir()
     (p,) = problems_of(tmp_path / "empty", tmp_path)
     assert "no .csv or .parquet file" in p.reason
+
+
+def test_price_index_rows(accounts, tmp_path):
+    # a monthly consumer price index in its own file (README, input contract: price indexes)
+    folder = accounts(GOOD_ROWS)
+    months = "".join(f"XQ,2020-{m:02d},CPI,index,{100 + m}\n" for m in range(1, 13))
+    (folder / "cpi.csv").write_text("economy,period,item,price_basis,value\n" + months)
+    assert pipeline.check(folder, tmp_path / "work_check") == 15
+
+
+def test_price_index_problems_are_located(accounts, tmp_path):
+    folder = accounts(GOOD_ROWS)
+    (folder / "cpi.csv").write_text(
+        "economy,period,item,price_basis,value\n"
+        "XQ,2020-01,CPI,index,100\n"
+        "XQ,2020-02,CPI,current,100\n"     # CPI must come as an index
+        "XQ,2020-03,P6,current,100\n"      # months are for price indexes only
+        "XQ,2020-04,CPI,index,0\n"         # an index is positive
+        "XQ,2020-07,CPI,index,101\n"       # gap: 2020-05 to 2020-06
+        "XR,2020-01,CPI,index,100\n"       # an economy with no accounts
+    )
+    got = {(p.row, p.reason.split(" (found")[0]) for p in problems_of(folder, tmp_path)}
+    assert (3, "price_basis index is for price indexes (CPI) and only for them") in got
+    assert (4, "monthly periods (YYYY-MM) are for price indexes only") in got
+    assert (5, "a price index must be positive") in got
+    assert (7, "price index of an economy that has no accounts") in got
+    # rows with problems are left out of the contiguity check, so the gap spans them
+    assert any(p.period == "2020-02 to 2020-06" for p in problems_of(folder, tmp_path))

@@ -8,6 +8,7 @@ Example ``valvol.toml``::
 
     reference_year = 2020          # volumes re-referenced so that C_2020 = CLV_2020
     levels_at_annual_rate = false  # false: year = sum of quarters; true: mean
+    price_indexes = ["CPI"]        # items given as price indexes (price_basis "index")
 
     [aggregates]                   # aggregate = signed components
     B1GQ = ["P3", "P5", "P6", "-P7", "YA1"]
@@ -37,7 +38,7 @@ from pathlib import Path
 from typing import Any
 
 from valvol.errors import ConfigError
-from valvol.hierarchy import DEFAULT_AGGREGATES, Hierarchy
+from valvol.hierarchy import DEFAULT_AGGREGATES, ITEM_CODE, Hierarchy
 
 CONFIG_FILE = "valvol.toml"
 
@@ -92,7 +93,12 @@ class Config:
     volumes: VolumesConfig = field(default_factory=VolumesConfig)
     contributions: ContributionsConfig = field(default_factory=ContributionsConfig)
     price_gaps: PriceGapsConfig = field(default_factory=PriceGapsConfig)
+    price_indexes: tuple[str, ...] = ("CPI",)
     source: str = ""
+
+    def allowed_items(self) -> frozenset[str]:
+        """Item codes accepted in input: known SNA codes, declared aggregates, price indexes."""
+        return self.hierarchy.allowed_items() | frozenset(self.price_indexes)
 
     def as_dict(self) -> dict[str, Any]:
         """Plain data for the manifest (the hierarchy as signed code lists)."""
@@ -104,6 +110,7 @@ class Config:
                 for a, comps in sorted(self.hierarchy.aggregates.items())
             },
             "sign_changing": sorted(self.hierarchy.sign_changing),
+            "price_indexes": list(self.price_indexes),
             "checks": _section_dict(self.checks),
             "volumes": _section_dict(self.volumes),
             "contributions": _section_dict(self.contributions),
@@ -118,7 +125,7 @@ _SECTIONS = {
     "contributions": ContributionsConfig,
     "price_gaps": PriceGapsConfig,
 }
-_TOP_KEYS = {"reference_year", "levels_at_annual_rate", "aggregates", "sign_changing", *_SECTIONS}
+_TOP_KEYS = {"reference_year", "levels_at_annual_rate", "aggregates", "sign_changing", "price_indexes", *_SECTIONS}
 
 
 def _section_dict(obj: object) -> dict[str, Any]:
@@ -156,6 +163,9 @@ def config_from_mapping(raw: dict[str, Any], *, source: str = "") -> Config:
     sign_changing = raw.get("sign_changing", [])
     if not isinstance(sign_changing, list) or not all(isinstance(s, str) for s in sign_changing):
         raise ConfigError("sign_changing must be a list of item codes", file=source)
+    indexes = raw.get("price_indexes", ["CPI"])
+    if not isinstance(indexes, list) or not all(isinstance(s, str) and ITEM_CODE.match(s) for s in indexes):
+        raise ConfigError("price_indexes must be a list of item codes", file=source)
     try:
         hierarchy = Hierarchy.from_mapping(aggregates, sign_changing)
     except ConfigError as exc:
@@ -165,6 +175,7 @@ def config_from_mapping(raw: dict[str, Any], *, source: str = "") -> Config:
         reference_year=ref,
         levels_at_annual_rate=annual_rate,
         hierarchy=hierarchy,
+        price_indexes=tuple(indexes),
         source=source,
         **sections,
     )

@@ -55,8 +55,12 @@ def _insert_checks(con: duckdb.DuckDBPyConnection, rows: pd.DataFrame) -> None:
     con.unregister("check_rows")
 
 
-def derive_all(con: duckdb.DuckDBPyConnection, config: Config) -> None:
-    """Run every derive step on the staged database (see the module docstring)."""
+def derive_all(con: duckdb.DuckDBPyConnection, config: Config, indexes: pd.DataFrame | None = None) -> None:
+    """Run every derive step on the staged database (see the module docstring).
+
+    ``indexes`` holds the economy's validated price-index rows (a consumer price index),
+    compared with the household consumption deflator in the price gaps.
+    """
     db.run_sql(con, "int_checks_init")
     derive_volumes(con, config)
     check_levels(con)
@@ -67,7 +71,7 @@ def derive_all(con: duckdb.DuckDBPyConnection, config: Config) -> None:
     db.run_sql(con, "int_checks_annual")
     db.run_sql(con, "int_checks_deflator_jump", jump_pct=config.checks.deflator_jump_pct)
     derive_contributions(con, config)
-    derive_price_gaps(con, config)
+    derive_price_gaps(con, config, indexes)
 
 
 def check_levels(con: duckdb.DuckDBPyConnection) -> None:
@@ -199,15 +203,24 @@ def derive_contributions(con: duckdb.DuckDBPyConnection, config: Config) -> None
     db.register(con, "contribution_rows", defl)
     db.run_sql(con, "int_deflator_contributions")
     con.unregister("contribution_rows")
+    income = deflator_contributions.income_side_contributions(levels)
+    db.register(con, "contribution_rows", income)
+    db.run_sql(con, "int_income_contributions")
+    con.unregister("contribution_rows")
 
 
-def derive_price_gaps(con: duckdb.DuckDBPyConnection, config: Config) -> None:
-    """Terms of trade, trading gain, real GDI and deflator gaps."""
+def derive_price_gaps(con: duckdb.DuckDBPyConnection, config: Config, indexes: pd.DataFrame | None = None) -> None:
+    """Terms of trade, trading gain, real GDI, deflator gaps and the CPI against household prices."""
     from valvol.methods import price_gaps
 
     levels = _levels(con)
     levels = levels[~levels["item"].str.endswith("_RESIDUAL")]
-    gaps = price_gaps.price_gaps(levels, hierarchy=config.hierarchy, numeraire=config.price_gaps.numeraire)
+    cpi = None
+    if indexes is not None and indexes["item"].eq("CPI").any():
+        cpi = indexes[indexes["item"] == "CPI"][["economy", "item", "price_basis", "frequency", "year", "quarter",
+                                                  "month", "value"]]
+    gaps = price_gaps.price_gaps(levels, hierarchy=config.hierarchy, numeraire=config.price_gaps.numeraire,
+                                 cpi=cpi, reference_year=config.reference_year)
     db.register(con, "gap_rows", gaps)
     db.run_sql(con, "int_price_gaps")
     con.unregister("gap_rows")

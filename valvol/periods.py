@@ -1,8 +1,9 @@
 """Period labels of the input contract and their calendar arithmetic.
 
-Accepted labels: ``YYYY-Qn`` and ``YYYYQn`` (quarters, n = 1..4) and ``YYYY``
-(years). Everything else is rejected. Canonical output labels are ``YYYY-Qn``
-and ``YYYY`` (the SDMX ``TIME_PERIOD`` forms for quarterly and annual data).
+Accepted labels: ``YYYY-Qn`` and ``YYYYQn`` (quarters, n = 1..4), ``YYYY``
+(years) and, for price indexes only, ``YYYY-MM`` (months). Everything else is
+rejected. Canonical labels are ``YYYY-Qn``, ``YYYY`` and ``YYYY-MM`` (the SDMX
+``TIME_PERIOD`` forms for quarterly, annual and monthly data).
 """
 
 from __future__ import annotations
@@ -10,8 +11,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-PERIOD_PATTERN = r"^[0-9]{4}(?:-?Q[1-4])?$"
-_PARSE = r"^(?P<year>[0-9]{4})(?:-?Q(?P<quarter>[1-4]))?$"
+PERIOD_PATTERN = r"^[0-9]{4}(?:-?Q[1-4]|-(?:0[1-9]|1[0-2]))?$"
+_PARSE = r"^(?P<year>[0-9]{4})(?:-?Q(?P<quarter>[1-4])|-(?P<month>0[1-9]|1[0-2]))?$"
 
 
 def parse_periods(labels: pd.Series) -> pd.DataFrame:
@@ -25,9 +26,10 @@ def parse_periods(labels: pd.Series) -> pd.DataFrame:
     Returns
     -------
     DataFrame
-        Columns ``valid`` (bool), ``frequency`` (``Q``/``A``), ``year`` and
-        ``quarter`` (0 for years), ``period`` (canonical label), aligned with
-        ``labels``; invalid rows have ``valid`` False and year/quarter -1.
+        Columns ``valid`` (bool), ``frequency`` (``Q``/``A``/``M``), ``year``,
+        ``quarter`` (0 for years; the quarter of a month), ``month`` (0 unless
+        monthly), ``period`` (canonical label), aligned with ``labels``; invalid
+        rows have ``valid`` False and year/quarter -1.
 
     Examples
     --------
@@ -38,16 +40,19 @@ def parse_periods(labels: pd.Series) -> pd.DataFrame:
     parts = text.str.extract(_PARSE)
     valid = parts["year"].notna().to_numpy()
     year = pd.to_numeric(parts["year"], errors="coerce").fillna(-1).astype("int64")
+    month = pd.to_numeric(parts["month"], errors="coerce").fillna(0).astype("int64")
     quarter = pd.to_numeric(parts["quarter"], errors="coerce").fillna(0).astype("int64")
-    quarter = quarter.where(valid, -1)
-    freq = np.where(quarter > 0, "Q", "A")
+    freq = np.where(month > 0, "M", np.where(quarter > 0, "Q", "A"))
     period = year.astype(str).where(quarter == 0, year.astype(str) + "-Q" + quarter.astype(str))
+    period = period.where(month == 0, year.astype(str) + "-" + month.astype(str).str.zfill(2))
+    quarter = quarter.where(month == 0, (month - 1) // 3 + 1).where(valid, -1)
     return pd.DataFrame(
         {
             "valid": valid,
             "frequency": pd.Series(freq, index=labels.index, dtype="str").where(valid, ""),
             "year": year.where(valid, -1),
             "quarter": quarter,
+            "month": month.where(valid, 0),
             "period": period.where(valid, ""),
         },
         index=labels.index,

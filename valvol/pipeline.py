@@ -41,11 +41,12 @@ log = logging.getLogger("valvol")
 ROWS_FILE = "rows.parquet"
 READ_PROBLEMS_FILE = "read_problems.json"
 VALIDATED_FILE = "validated.parquet"
+INDEXES_FILE = "indexes.parquet"
 ECONOMIES_DIR = "economies"
 DB_FILE = "valvol.duckdb"
 MANIFEST_FILE = "manifest.json"
 TIMINGS_FILE = "timings.json"
-SCRATCH = (ROWS_FILE, READ_PROBLEMS_FILE, VALIDATED_FILE, TIMINGS_FILE, "validate.duckdb")
+SCRATCH = (ROWS_FILE, READ_PROBLEMS_FILE, VALIDATED_FILE, INDEXES_FILE, TIMINGS_FILE, "validate.duckdb")
 
 #: Output tables, in the order they are written.
 TABLES = (
@@ -55,6 +56,7 @@ TABLES = (
     "checks",
     "volume_contributions",
     "deflator_contributions",
+    "income_contributions",
     "price_gaps",
 )
 #: Tables of revisions against the previous vintage (empty for a first vintage).
@@ -128,6 +130,13 @@ def validate(accounts_dir: str | Path, work: str | Path, config: Config | None =
     ok = rows.loc[pd.Series(keep, index=rows.index, dtype=bool)]
     problems += duplicate_keys(ok)
     problems += period_gaps(ok.drop_duplicates(["economy", "item", "price_basis", "period"]))
+    is_index = ok["price_basis"].eq("index")
+    indexes, ok = ok[is_index], ok[~is_index]
+    for economy in sorted(set(indexes["economy"]) - set(ok["economy"])):
+        first = indexes[indexes["economy"] == economy].iloc[0]
+        problems.append(Problem(file=first["source_file"], row=int(first["source_row"]), economy=economy,
+                                item=first["item"], price_basis="index",
+                                reason="price index of an economy that has no accounts"))
     if problems:
         raise InputError(problems)
     con = db.connect(work / "validate.duckdb")
@@ -144,6 +153,7 @@ def validate(accounts_dir: str | Path, work: str | Path, config: Config | None =
     if problems:
         raise InputError(problems)
     ok.to_parquet(work / VALIDATED_FILE, index=False)
+    indexes.to_parquet(work / INDEXES_FILE, index=False)
     economies = sorted(ok["economy"].unique())
     log.info("validated %d rows: %d economies, %d series", len(ok), len(economies),
              len(ok.drop_duplicates(["economy", "item", "price_basis", "frequency"])))
@@ -162,10 +172,11 @@ def derive_economy(accounts_dir: str | Path, work: str | Path, economy: str, con
         shutil.rmtree(folder)
     folder.mkdir(parents=True)
     rows = pd.read_parquet(work / VALIDATED_FILE, filters=[("economy", "==", economy)])
+    indexes = pd.read_parquet(work / INDEXES_FILE, filters=[("economy", "==", economy)])
     con = db.connect(folder / DB_FILE, threads=1)
     try:
         stage_accounts(con, rows, config)
-        steps.derive_all(con, config)
+        steps.derive_all(con, config, indexes=indexes)
         for name in TABLES:
             pq.write_table(db.query_arrow(con, f"out_{name}"), folder / f"{name}.parquet")
     finally:

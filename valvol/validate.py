@@ -34,6 +34,7 @@ def parse_rows(raw: pd.DataFrame) -> pd.DataFrame:
     out["frequency"] = parts["frequency"]
     out["year"] = parts["year"]
     out["quarter"] = parts["quarter"]
+    out["month"] = parts["month"]
     out["period"] = parts["period"]
     out["value"] = pd.to_numeric(out["value_text"], errors="coerce").astype("float64")
     return out
@@ -85,7 +86,9 @@ def _problem(row: pd.Series, reason: str) -> Problem:
 
 def row_problems(rows: pd.DataFrame, config: Config) -> list[Problem]:
     """Row-level rules of the input contract (pandera schema `valvol.schemas.input`)."""
-    schema = input_schema.input_rows(config.hierarchy.allowed_items(), config.hierarchy.sign_changing)
+    schema = input_schema.input_rows(
+        config.allowed_items(), config.hierarchy.sign_changing, frozenset(config.price_indexes)
+    )
     return run_schema(schema, rows)
 
 
@@ -105,10 +108,14 @@ def duplicate_keys(rows: pd.DataFrame) -> list[Problem]:
 
 
 def period_gaps(rows: pd.DataFrame) -> list[Problem]:
-    """Quarters (and years) of each series must be contiguous; name the missing span."""
+    """Months, quarters and years of each series must be contiguous; name the missing span."""
     key = ["economy", "item", "price_basis", "frequency"]
-    df = rows[key + ["year", "quarter", "source_file"]].copy()
-    df["idx"] = np.where(df["frequency"] == "Q", quarter_index(df["year"], df["quarter"].clip(lower=1)), df["year"])
+    df = rows[key + ["year", "quarter", "month", "source_file"]].copy()
+    df["idx"] = np.select(
+        [df["frequency"] == "Q", df["frequency"] == "M"],
+        [quarter_index(df["year"], df["quarter"].clip(lower=1)), df["year"] * 12 + df["month"] - 1],
+        df["year"],
+    )
     df = df.sort_values(key + ["idx"], kind="mergesort")
     step = df.groupby(key, sort=False)["idx"].diff()
     gaps = df[step > 1].assign(prev=df["idx"].shift()[step > 1])
@@ -117,6 +124,8 @@ def period_gaps(rows: pd.DataFrame) -> list[Problem]:
         first, last = int(g["prev"]) + 1, int(g["idx"]) - 1
         if g["frequency"] == "Q":
             span = [f"{i // 4}-Q{i % 4 + 1}" for i in (first, last)]
+        elif g["frequency"] == "M":
+            span = [f"{i // 12}-{i % 12 + 1:02d}" for i in (first, last)]
         else:
             span = [str(first), str(last)]
         missing = span[0] if first == last else f"{span[0]} to {span[1]}"
