@@ -1,4 +1,4 @@
-"""The rebuild flow: load -> validate -> derive (one task per economy) -> write -> publish.
+"""The rebuild flow: load -> validate -> reconcile -> derive (one task per economy) -> write -> publish.
 
 Tasks are thin wrappers of `valvol.pipeline` functions and pass paths only. The
 economies fan out through the flow's task runner: local threads by default, or a
@@ -41,6 +41,11 @@ def validate_task(accounts_dir: str, work: str) -> dict:
         return {"economies": [], "problems": [p.as_dict() for p in err.problems]}
 
 
+@task(name="reconcile accounts", cache_policy=NO_CACHE)
+def reconcile_task(accounts_dir: str, work: str) -> str:
+    return str(pipeline.reconcile(accounts_dir, work))
+
+
 @task(name="derive economy", cache_policy=NO_CACHE, task_run_name="derive {economy}")
 def derive_task(accounts_dir: str, work: str, economy: str) -> str:
     return str(pipeline.derive_economy(accounts_dir, work, economy))
@@ -81,6 +86,7 @@ def rebuild_flow(
                 pub.discard_staging(work)
                 return Failed(message=f"{len(checked['problems'])} problem(s) in the accounts",
                               data=checked["problems"])
+            reconcile_task(accounts_dir, str(work))
             futures = [derive_task.submit(accounts_dir, str(work), e) for e in checked["economies"]]
             for future in futures:
                 future.result()

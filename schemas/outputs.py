@@ -115,6 +115,26 @@ identity_residuals = pa.DataFrameSchema(
     name="identity_residuals",
 )
 
+reconciliation = pa.DataFrameSchema(
+    {
+        "economy": pa.Column(str),
+        "period": _PERIOD,
+        "item": pa.Column(str),
+        "price_basis": pa.Column(str, pa.Check.isin(["current", "previous_year"])),
+        "step": pa.Column(str, pa.Check.isin(["benchmark", "reconcile"])),
+        "before": pa.Column(float, _FINITE),
+        "after": pa.Column(float, _FINITE),
+        "adjustment": pa.Column(float, _FINITE),
+        "adjustment_pct": pa.Column(float, nullable=True),
+        "constraint": pa.Column(str),
+        "growth_before_pct": pa.Column(float, nullable=True),
+        "growth_after_pct": pa.Column(float, nullable=True),
+    },
+    unique=["economy", "period", "item", "price_basis", "step"],
+    strict=True,
+    name="reconciliation",
+)
+
 TABLES = {
     "levels": levels,
     "deflators": deflators,
@@ -124,4 +144,5 @@ TABLES = {
     "deflator_contributions": contributions,
     "income_contributions": contributions,
     "price_gaps": price_gaps,
+    "reconciliation": reconciliation,
 }

@@ -1,4 +1,4 @@
-"""Command line: ``valvol rebuild | check | vintages | prune | revisions | serve``.
+"""Command line: ``valvol rebuild | check | vintages | prune | revisions | reconcile | serve``.
 
 Thin by design: parse options, call the flow or a package function, map errors to exit
 codes (0 done, 2 invalid input or config, 3 output folder busy, 1 anything else). Bad
@@ -60,6 +60,11 @@ def _parser() -> argparse.ArgumentParser:
     rv.add_argument("--write", type=Path, metavar="DIR", help="write revisions, summary (and triangle) parquet here")
     rv.add_argument("--triangle", metavar="ECONOMY:ITEM:MEASURE",
                     help="revision triangle over every vintage, e.g. XQ:B1GQ:growth_volume_prev_period")
+
+    rc = sub.add_parser("reconcile", help="benchmark and reconcile an accounts folder as valvol.toml asks; "
+                        "write the adjusted accounts in the input format")
+    rc.add_argument("accounts_dir", type=Path)
+    rc.add_argument("--to", type=Path, required=True, metavar="DIR", help="folder for the reconciled accounts")
 
     s = sub.add_parser("serve", help="rebuild on a schedule (a local Prefect server is started and stopped)")
     s.add_argument("accounts_dir", type=Path)
@@ -173,6 +178,19 @@ def _revisions(args: argparse.Namespace) -> int:
     return 0
 
 
+def _reconcile(args: argparse.Namespace) -> int:
+    from valvol import pipeline
+
+    if args.to.resolve() == args.accounts_dir.resolve():
+        raise ValvolError("--to must differ from the accounts folder (the input is never overwritten)")
+    report = pipeline.reconciled_accounts(args.accounts_dir, args.to)
+    moved = report[report["adjustment"].abs() > 0]
+    print(f"reconciled accounts written to {args.to}: {len(moved)} quarterly values adjusted "
+          f"(largest {moved['adjustment_pct'].abs().max() if len(moved) else 0:.2f}%); report in "
+          f"{args.to / 'reconciliation' / 'report.csv'}")
+    return 0
+
+
 def _serve(args: argparse.Namespace) -> int:
     from valvol.serve import serve
 
@@ -181,7 +199,7 @@ def _serve(args: argparse.Namespace) -> int:
 
 
 COMMANDS = {"rebuild": _rebuild, "check": _check, "vintages": _vintages, "prune": _prune,
-            "revisions": _revisions, "serve": _serve}
+            "revisions": _revisions, "reconcile": _reconcile, "serve": _serve}
 
 
 def main(argv: list[str] | None = None) -> int:

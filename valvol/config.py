@@ -68,6 +68,35 @@ class ContributionsConfig:
 
 
 @dataclass(frozen=True)
+class BenchmarkConfig:
+    """Quarterly series benchmarked one by one to annual values (empty ``items``: none)."""
+
+    items: tuple[str, ...] = ()
+    price_bases: tuple[str, ...] = ("current",)
+    method: str = "proportional_denton"
+    stock_flow: str = ""
+    on_nonpositive: str = "error"
+    rho: float | None = None
+    benchmarks: str = ""
+    first_year: int = 0
+
+
+@dataclass(frozen=True)
+class ReconcileConfig:
+    """Components adjusted jointly to their annual values and to the aggregate (empty ``aggregate``: none)."""
+
+    aggregate: str = ""
+    components: tuple[str, ...] = ()
+    price_bases: tuple[str, ...] = ("current",)
+    fixed: tuple[str, ...] = ()
+    discrepancy: str = ""
+    method: str = "proportional_denton"
+    tolerance: float = 1e-6
+    benchmarks: str = ""
+    first_year: int = 0
+
+
+@dataclass(frozen=True)
 class PriceGapsConfig:
     """Numeraire of the trading gain."""
 
@@ -79,6 +108,10 @@ _CHOICES: dict[tuple[str, str], tuple[str, ...]] = {
     ("volumes", "index"): ("laspeyres", "fisher"),
     ("contributions", "convention"): ("two_step", "prior_year_weights", "fisher"),
     ("price_gaps", "numeraire"): ("trade_average", "import", "export", "domestic_final_demand"),
+    ("benchmark", "method"): ("proportional_denton", "additive_denton", "chow_lin"),
+    ("benchmark", "stock_flow"): ("", "sum", "average", "last", "first"),
+    ("benchmark", "on_nonpositive"): ("error", "additive"),
+    ("reconcile", "method"): ("proportional_denton", "wls"),
 }
 
 
@@ -93,6 +126,8 @@ class Config:
     volumes: VolumesConfig = field(default_factory=VolumesConfig)
     contributions: ContributionsConfig = field(default_factory=ContributionsConfig)
     price_gaps: PriceGapsConfig = field(default_factory=PriceGapsConfig)
+    benchmark: BenchmarkConfig = field(default_factory=BenchmarkConfig)
+    reconcile: ReconcileConfig = field(default_factory=ReconcileConfig)
     price_indexes: tuple[str, ...] = ("CPI",)
     source: str = ""
 
@@ -115,6 +150,8 @@ class Config:
             "volumes": _section_dict(self.volumes),
             "contributions": _section_dict(self.contributions),
             "price_gaps": _section_dict(self.price_gaps),
+            "benchmark": _section_dict(self.benchmark),
+            "reconcile": _section_dict(self.reconcile),
             "source": self.source,
         }
 
@@ -124,12 +161,15 @@ _SECTIONS = {
     "volumes": VolumesConfig,
     "contributions": ContributionsConfig,
     "price_gaps": PriceGapsConfig,
+    "benchmark": BenchmarkConfig,
+    "reconcile": ReconcileConfig,
 }
 _TOP_KEYS = {"reference_year", "levels_at_annual_rate", "aggregates", "sign_changing", "price_indexes", *_SECTIONS}
 
 
 def _section_dict(obj: object) -> dict[str, Any]:
-    return {f.name: getattr(obj, f.name) for f in fields(obj)}  # type: ignore[arg-type]
+    out = {f.name: getattr(obj, f.name) for f in fields(obj)}  # type: ignore[arg-type]
+    return {k: list(v) if isinstance(v, tuple) else v for k, v in out.items()}
 
 
 def load_config(accounts_dir: str | Path) -> Config:
@@ -193,7 +233,18 @@ def _section(raw: Any, cls: type, name: str, source: str) -> Any:
     values = {}
     for key, value in raw.items():
         default = known[key].default
-        if isinstance(default, float):
+        if isinstance(default, tuple):
+            if not isinstance(value, list) or not all(isinstance(v, str) and v for v in value):
+                raise ConfigError(f"[{name}] {key} must be a list of codes, got {value!r}", file=source)
+            value = tuple(value)
+        elif default is None:  # an optional number (e.g. a fixed Chow-Lin rho)
+            if isinstance(value, bool) or not isinstance(value, int | float) or not -1 < value < 1:
+                raise ConfigError(f"[{name}] {key} must be a number between -1 and 1, got {value!r}", file=source)
+            value = float(value)
+        elif isinstance(default, int) and not isinstance(default, bool):  # a year; 0 = automatic
+            if isinstance(value, bool) or not isinstance(value, int) or not (value == 0 or 1000 <= value <= 9999):
+                raise ConfigError(f"[{name}] {key} must be a four-digit year, got {value!r}", file=source)
+        elif isinstance(default, float):
             if isinstance(value, bool) or not isinstance(value, int | float) or value < 0:
                 raise ConfigError(f"[{name}] {key} must be a non-negative number, got {value!r}", file=source)
             value = float(value)

@@ -55,13 +55,21 @@ def _insert_checks(con: duckdb.DuckDBPyConnection, rows: pd.DataFrame) -> None:
     con.unregister("check_rows")
 
 
-def derive_all(con: duckdb.DuckDBPyConnection, config: Config, indexes: pd.DataFrame | None = None) -> None:
+def derive_all(
+    con: duckdb.DuckDBPyConnection,
+    config: Config,
+    indexes: pd.DataFrame | None = None,
+    extra_checks: pd.DataFrame | None = None,
+) -> None:
     """Run every derive step on the staged database (see the module docstring).
 
     ``indexes`` holds the economy's validated price-index rows (a consumer price index),
-    compared with the household consumption deflator in the price gaps.
+    compared with the household consumption deflator in the price gaps; ``extra_checks``
+    are checks of earlier stages (reconciliation before/after residuals).
     """
     db.run_sql(con, "int_checks_init")
+    if extra_checks is not None:
+        _insert_checks(con, extra_checks)
     derive_volumes(con, config)
     check_levels(con)
     sign_changing = sorted(config.hierarchy.sign_changing)

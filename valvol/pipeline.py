@@ -29,7 +29,7 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from valvol import db
+from valvol import db, reconciliation
 from valvol.config import Config, load_config
 from valvol.errors import InputError, Problem
 from valvol.io import publish as pub
@@ -42,11 +42,14 @@ ROWS_FILE = "rows.parquet"
 READ_PROBLEMS_FILE = "read_problems.json"
 VALIDATED_FILE = "validated.parquet"
 INDEXES_FILE = "indexes.parquet"
+RECONCILIATION_FILE = "reconciliation.parquet"
+RECONCILE_CHECKS_FILE = "reconcile_checks.parquet"
 ECONOMIES_DIR = "economies"
 DB_FILE = "valvol.duckdb"
 MANIFEST_FILE = "manifest.json"
 TIMINGS_FILE = "timings.json"
-SCRATCH = (ROWS_FILE, READ_PROBLEMS_FILE, VALIDATED_FILE, INDEXES_FILE, TIMINGS_FILE, "validate.duckdb")
+SCRATCH = (ROWS_FILE, READ_PROBLEMS_FILE, VALIDATED_FILE, INDEXES_FILE, RECONCILE_CHECKS_FILE, TIMINGS_FILE,
+           "validate.duckdb")
 
 #: Output tables, in the order they are written.
 TABLES = (
@@ -139,12 +142,18 @@ def validate(accounts_dir: str | Path, work: str | Path, config: Config | None =
                                 reason="price index of an economy that has no accounts"))
     if problems:
         raise InputError(problems)
+    moved, rebalanced = reconciliation.adjusted_items(config)  # checked again after reconciliation
+    bases = set(config.benchmark.price_bases) | set(config.reconcile.price_bases)
     con = db.connect(work / "validate.duckdb")
     try:
         stage_accounts(con, ok, config)
-        problems += identity_problems(con.table("identity_residuals").df(), "components do not add to the aggregate")
+        ident = con.table("identity_residuals").df()
+        ident = ident[~(ident["item"].isin(rebalanced) & ident["price_basis"].isin(bases))]
+        annual = con.table("annual_vs_quarters").df()
+        annual = annual[~(annual["item"].isin(moved) & annual["price_basis"].isin(bases))]
+        problems += identity_problems(ident, "components do not add to the aggregate")
         problems += identity_problems(
-            con.table("annual_vs_quarters").df(),
+            annual,
             "quarters do not " + ("average" if config.levels_at_annual_rate else "add") + " to the year",
         )
     finally:
@@ -161,6 +170,35 @@ def validate(accounts_dir: str | Path, work: str | Path, config: Config | None =
     return economies
 
 
+def reconcile(accounts_dir: str | Path, work: str | Path, config: Config | None = None) -> Path:
+    """Benchmark and reconcile the validated rows as ``[benchmark]`` and ``[reconcile]`` ask.
+
+    Rewrites ``validated.parquet`` with the adjusted quarters and writes the
+    ``reconciliation`` report and its before/after checks (empty when not asked for).
+    """
+    started = time.perf_counter()
+    work = Path(work)
+    config = config or load_config(accounts_dir)
+    if reconciliation.enabled(config):
+        rows = pd.read_parquet(work / VALIDATED_FILE)
+        rows, report, checks = reconciliation.run(rows, config, Path(accounts_dir))
+        rows.to_parquet(work / VALIDATED_FILE, index=False)
+        log.info("reconciliation: %d quarterly values adjusted", int((report["adjustment"].abs() > 0).sum()))
+    else:
+        report = pd.DataFrame(columns=reconciliation.REPORT_COLUMNS)
+        checks = pd.DataFrame(columns=reconciliation.CHECK_COLUMNS)
+    _typed_report(report).to_parquet(work / RECONCILIATION_FILE, index=False)
+    checks.astype({"value": "float64", "tolerance": "float64"}).to_parquet(work / RECONCILE_CHECKS_FILE, index=False)
+    _timed(work, "reconcile", started)
+    return work / RECONCILIATION_FILE
+
+
+def _typed_report(report: pd.DataFrame) -> pd.DataFrame:
+    floats = ["before", "after", "adjustment", "adjustment_pct", "growth_before_pct", "growth_after_pct"]
+    text = [c for c in reconciliation.REPORT_COLUMNS if c not in floats]
+    return report.astype({**{c: "float64" for c in floats}, **{c: "str" for c in text}})
+
+
 def derive_economy(accounts_dir: str | Path, work: str | Path, economy: str, config: Config | None = None) -> Path:
     """Derive every table of one economy in its own DuckDB file; write its tables as parquet."""
     from valvol import derive as steps
@@ -173,10 +211,11 @@ def derive_economy(accounts_dir: str | Path, work: str | Path, economy: str, con
     folder.mkdir(parents=True)
     rows = pd.read_parquet(work / VALIDATED_FILE, filters=[("economy", "==", economy)])
     indexes = pd.read_parquet(work / INDEXES_FILE, filters=[("economy", "==", economy)])
+    checks = pd.read_parquet(work / RECONCILE_CHECKS_FILE, filters=[("economy", "==", economy)])
     con = db.connect(folder / DB_FILE, threads=1)
     try:
         stage_accounts(con, rows, config)
-        steps.derive_all(con, config, indexes=indexes)
+        steps.derive_all(con, config, indexes=indexes, extra_checks=checks)
         for name in TABLES:
             pq.write_table(db.query_arrow(con, f"out_{name}"), folder / f"{name}.parquet")
     finally:
@@ -214,6 +253,7 @@ def write(
         for name in TABLES
     }
     revisions = _revisions_against_latest(Path(out_dir), tables) if out_dir is not None else {}
+    tables["reconciliation"] = pq.read_table(work / RECONCILIATION_FILE)
     counts = write_tables(work, {**tables, **revisions})
     checks = tables["checks"].column("status").to_pandas().value_counts().to_dict()
     shutil.rmtree(work / ECONOMIES_DIR, ignore_errors=True)
@@ -253,8 +293,9 @@ def publish(work: str | Path, out_dir: str | Path) -> Path:
     """Move the finished work folder into ``out_dir/vintages`` and switch ``latest`` to it."""
     work, out_dir = Path(work), Path(out_dir)
     manifest = json.loads((work / MANIFEST_FILE).read_text())
-    links = [f"{t}.parquet" for t in TABLES + REVISION_TABLES] + [MANIFEST_FILE, DB_FILE, "charts"]
-    target = pub.publish(work, out_dir, manifest["vintage"], links)
+    links = [f"{t}.parquet" for t in (*TABLES, "reconciliation", *REVISION_TABLES)] + [MANIFEST_FILE, DB_FILE,
+                                                                                      "charts"]
+    target = pub.publish(work, out_dir, manifest["vintage"], [n for n in links if (work / n).exists()])
     log.info("published vintage %s in %s", target.name, out_dir)
     return target
 
@@ -269,6 +310,39 @@ def unchanged_since_latest(accounts_dir: str | Path, out_dir: str | Path, config
     if json.loads(manifest.read_text()).get("fingerprint") != fingerprint(Path(accounts_dir), config):
         return None
     return (Path(out_dir) / pub.LATEST).resolve()
+
+
+def reconciled_accounts(accounts_dir: str | Path, to_dir: str | Path) -> pd.DataFrame:
+    """Benchmark and reconcile a folder; write the adjusted accounts in the input format to ``to_dir``.
+
+    ``to_dir`` gets ``accounts.csv`` (every row, quarters adjusted), a copy of ``valvol.toml``
+    and ``reconciliation/report.csv`` (a sub-folder, so it is not read as accounts). Returns
+    the report. Rebuilding ``to_dir`` reproduces the reconciled accounts (a second
+    reconciliation of consistent data moves nothing).
+    """
+    import tempfile
+
+    from valvol.config import CONFIG_FILE
+
+    config = load_config(accounts_dir)
+    to_dir = Path(to_dir)
+    with tempfile.TemporaryDirectory(prefix="valvol-reconcile-") as tmp:
+        load(accounts_dir, tmp)
+        validate(accounts_dir, tmp, config)
+        reconcile(accounts_dir, tmp, config)
+        rows = pd.concat([pd.read_parquet(Path(tmp) / VALIDATED_FILE), pd.read_parquet(Path(tmp) / INDEXES_FILE)])
+        report = pd.read_parquet(Path(tmp) / RECONCILIATION_FILE)
+    rows = rows.sort_values(["source_file", "source_row"], kind="mergesort")
+    out = rows[["economy", "period", "item", "price_basis", "value", "adjustment", "unit"]].copy()
+    out["value"] = out["value"].map(repr)
+    to_dir.mkdir(parents=True, exist_ok=True)
+    (to_dir / "reconciliation").mkdir(exist_ok=True)
+    out.to_csv(to_dir / "accounts.csv", index=False)
+    report.to_csv(to_dir / "reconciliation" / "report.csv", index=False)
+    if (Path(accounts_dir) / CONFIG_FILE).exists():
+        shutil.copyfile(Path(accounts_dir) / CONFIG_FILE, to_dir / CONFIG_FILE)
+    log.info("wrote reconciled accounts (%d rows) and the report to %s", len(out), to_dir)
+    return report
 
 
 def check(accounts_dir: str | Path, work: str | Path) -> int:
@@ -300,7 +374,9 @@ def rebuild(
         work = pub.new_staging_dir(out_dir)
         try:
             load(accounts_dir, work)
-            for economy in validate(accounts_dir, work, config):  # fan-out: one economy at a time here
+            economies = validate(accounts_dir, work, config)
+            reconcile(accounts_dir, work, config)
+            for economy in economies:  # fan-out: one economy at a time here
                 started = time.perf_counter()
                 derive_economy(accounts_dir, work, economy, config)
                 _timed(work, "derive", started)

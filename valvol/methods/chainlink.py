@@ -644,12 +644,12 @@ def nonadditivity_residual(chained: pd.DataFrame, hierarchy: Hierarchy) -> pd.Da
     """
     ch = levels_wide(chained, {"chain_linked": "v"})
     edges = pd.DataFrame(hierarchy.edges(), columns=["aggregate", "item", "sign"])
-    n_comp = edges.groupby("aggregate")["item"].size().rename("n_comp")
+    n_comp = edges.groupby("aggregate", as_index=False)["item"].size().rename(columns={"size": "n_comp"})
     comp = ch.merge(edges, on="item")
     comp["sv"] = comp["sign"] * comp["v"]
     g = comp.groupby(["economy", "aggregate", "frequency", "year", "quarter"], as_index=False).agg(
         total=("sv", "sum"), n=("sv", "size"))
-    g = g.merge(n_comp, left_on="aggregate", right_index=True)
+    g = g.merge(n_comp, on="aggregate")
     g = g[g["n"] == g["n_comp"]]
     agg = ch.rename(columns={"item": "aggregate"})
     g = g.merge(agg, on=["economy", "aggregate", "frequency", "year", "quarter"])

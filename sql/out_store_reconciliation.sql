@@ -1,0 +1,3 @@
+-- Output: the published table reconciliation, stored in the vintage's own database for SQL users
+-- (the same rows, in the same order, as reconciliation.parquet).
+CREATE OR REPLACE TABLE reconciliation AS SELECT * FROM published_rows;

@@ -1,0 +1,246 @@
+"""The reconciliation stage: benchmark quarters to years and balance components to their total.
+
+Runs between validation and derivation when ``valvol.toml`` has a ``[benchmark]`` or a
+``[reconcile]`` section, on the validated rows of every economy at once (one sparse solve
+per method, `valvol.methods.benchmark` and `valvol.methods.reconcile`):
+
+1. ``[benchmark]``: each listed item's quarters (at each listed price basis) are benchmarked
+   to its annual values by proportional or additive Denton, or Chow-Lin;
+2. ``[reconcile]``: the aggregate's components are adjusted jointly so that each matches its
+   annual values and, each quarter, the signed components (plus a fixed discrepancy) add to
+   the aggregate's quarterly value, which does not move.
+
+Annual values: the years given in the accounts (or in the ``benchmarks`` file, a CSV or
+parquet file in the input format, in a sub-folder of the accounts folder so that it is not
+read as accounts); every other complete year keeps the sum (or mean) of its own quarters.
+Only the quarters from ``first_year`` on may move (default: the year before the first given
+annual value, so that the adjustment of a new benchmark year is spread smoothly into the
+year before it without changing that year's total; earlier quarters stay as they are). Quarters past the
+last benchmark are extrapolated as the methods' docstrings say (flat benchmark-to-indicator
+ratio for proportional Denton).
+
+Outputs: the adjusted rows (same shape as the validated rows), the ``reconciliation`` report
+(economy, period, item, price_basis, step, before, after, adjustment, adjustment_pct,
+constraint, growth_before_pct, growth_after_pct) and before/after checks.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from valvol.config import Config
+from valvol.errors import ConfigError, InputError, Problem
+
+REPORT_COLUMNS = ["economy", "period", "item", "price_basis", "step", "before", "after", "adjustment",
+                  "adjustment_pct", "constraint", "growth_before_pct", "growth_after_pct"]
+CHECK_COLUMNS = ["economy", "period", "check", "item", "value", "tolerance", "status"]
+_BY = ["economy", "price_basis"]
+
+
+def enabled(config: Config) -> bool:
+    """True when the configuration asks for benchmarking or reconciliation."""
+    return bool(config.benchmark.items) or bool(config.reconcile.aggregate)
+
+
+def adjusted_items(config: Config) -> tuple[set[str], set[str]]:
+    """(items whose quarters may move, aggregates whose identity is checked only afterwards)."""
+    moved = set(config.benchmark.items) | set(reconcile_components(config))
+    h = config.hierarchy
+    containing = {a for a in h.order() if _contains(h, a, moved)}
+    if config.reconcile.aggregate:
+        containing.add(config.reconcile.aggregate)
+    return moved, containing
+
+
+def _contains(h, aggregate: str, items: set[str]) -> bool:
+    comps = {c.item for c in h.aggregates.get(aggregate, ())}
+    return bool(comps & items) or any(_contains(h, c, items) for c in comps if c in h.aggregates)
+
+
+def reconcile_components(config: Config) -> dict[str, int]:
+    """Signed components of the reconciled aggregate (the ``components`` option, else the hierarchy)."""
+    r = config.reconcile
+    if not r.aggregate:
+        return {}
+    if r.components:
+        return {c.lstrip("+-"): -1 if c.startswith("-") else 1 for c in r.components}
+    if r.aggregate not in config.hierarchy.aggregates:
+        raise ConfigError(f"[reconcile] aggregate {r.aggregate} is not declared in [aggregates]; "
+                          "declare it or list its components")
+    comps = {c.item: c.sign for c in config.hierarchy.aggregates[r.aggregate]}
+    comps.pop(r.discrepancy, None)
+    return comps
+
+
+def _annual_targets(rows: pd.DataFrame, items: set[str], bases: tuple[str, ...], annual_rate: bool,
+                    given: pd.DataFrame | None) -> pd.DataFrame:
+    """Benchmarks: given years, else the sum (mean at annual rate) of each complete year's quarters."""
+    sel = rows[rows["item"].isin(items) & rows["price_basis"].isin(bases)]
+    q = sel[sel["frequency"] == "Q"]
+    own = q.groupby(["economy", "price_basis", "item", "year"])["value"].agg(["sum", "size"]).reset_index()
+    own = own[own["size"] == 4].assign(value=lambda d: d["sum"] / 4 if annual_rate else d["sum"])
+    annual = sel[sel["frequency"] == "A"] if given is None else given
+    annual = annual[annual["item"].isin(items) & annual["price_basis"].isin(bases)]
+    key = ["economy", "price_basis", "item", "year"]
+    out = pd.concat([annual[key + ["value"]], own[key + ["value"]]]).drop_duplicates(key, keep="first")
+    return out.rename(columns={"item": "series"})
+
+
+def _window(frames: list[pd.DataFrame | None], first_year: int) -> list[pd.DataFrame | None]:
+    return [f if f is None else f[f["year"] >= first_year] for f in frames]
+
+
+def _first_year(option: int, rows: pd.DataFrame, items, bases, given: pd.DataFrame | None) -> int:
+    if option:
+        return option
+    annual = rows[rows["frequency"] == "A"] if given is None else given
+    annual = annual[annual["item"].isin(list(items)) & annual["price_basis"].isin(bases)]
+    return int(annual["year"].min()) - 1 if len(annual) else 0
+
+
+def _growth(df: pd.DataFrame, col: str) -> pd.Series:
+    prev = df.groupby(["economy", "price_basis", "item"])[col].shift()
+    return (100 * (df[col] / prev - 1)).where(prev > 0)
+
+
+def run(rows: pd.DataFrame, config: Config, accounts_dir: Path) -> tuple[pd.DataFrame, pd.DataFrame, pd.DataFrame]:
+    """Benchmark and reconcile ``rows`` (validated accounts rows); return (rows, report, checks)."""
+    from valvol.methods import benchmark as bm
+    from valvol.methods import reconcile as rc
+
+    given = _benchmark_file(accounts_dir, config)
+    annual_rate = config.levels_at_annual_rate
+    stock_flow = "average" if annual_rate else "sum"
+    rows = rows.copy()
+    reports, checks = [], []
+    b = config.benchmark
+    if b.items:
+        ind = rows[(rows["frequency"] == "Q") & rows["item"].isin(b.items) & rows["price_basis"].isin(b.price_bases)]
+        ind = ind.rename(columns={"item": "series"})[_BY + ["series", "year", "quarter", "value"]]
+        targets = _annual_targets(rows, set(b.items), b.price_bases, annual_rate, given)
+        ind, targets = _window([ind, targets], _first_year(b.first_year, rows, b.items, b.price_bases, given))
+        by = _BY + ["series"]
+        sf = b.stock_flow or stock_flow
+        if b.method == "chow_lin":
+            out, _ = bm.chow_lin(ind, targets, rho=b.rho, stock_flow=sf, by=by)
+        else:
+            out = bm.denton(ind, targets, method="proportional" if b.method == "proportional_denton" else "additive",
+                            stock_flow=sf, on_nonpositive=b.on_nonpositive, by=by)
+        out = out.rename(columns={"series": "item", "indicator": "before", "value": "after"})
+        out["constraint"] = np.where(out["benchmarked"], "annual benchmark " + out["year"].astype(str),
+                                     "annual benchmarks (extrapolated)")
+        reports.append(_report(out, "benchmark"))
+        rows = _apply(rows, out)
+        checks.append(_annual_checks(out, targets, "benchmark_annual", annual_rate))
+    r = config.reconcile
+    if r.aggregate:
+        signs = reconcile_components(config)
+        q = rows[(rows["frequency"] == "Q") & rows["price_basis"].isin(r.price_bases)]
+        comps = q[q["item"].isin(signs)].rename(columns={"item": "series"})[_BY + ["series", "year", "quarter",
+                                                                               "value"]]
+        total = q[q["item"] == r.aggregate][_BY + ["year", "quarter", "value"]]
+        disc = q[q["item"] == r.discrepancy][_BY + ["year", "quarter", "value"]] if r.discrepancy else None
+        if total.empty:
+            raise InputError([Problem(item=r.aggregate, reason="[reconcile] the aggregate has no quarterly values "
+                                      "at the price bases asked for")])
+        targets = _annual_targets(rows, set(signs), r.price_bases, annual_rate, given)
+        first = _first_year(r.first_year, rows, signs, r.price_bases, given)
+        comps, total, disc, targets = _window([comps, total, disc, targets], first)
+        res = rc.reconcile(comps, signs, total, targets, fixed=r.fixed, discrepancy=disc, method=r.method,
+                           stock_flow=stock_flow, tolerance=r.tolerance, by=_BY, total_item=r.aggregate)
+        rep = res.report.rename(columns={"series": "item"})
+        reports.append(_report(rep, "reconcile", keep_growth=True))
+        rows = _apply(rows, rep)
+        checks.append(_identity_checks(res.residuals, r.aggregate))
+    report = pd.concat(reports, ignore_index=True) if reports else pd.DataFrame(columns=REPORT_COLUMNS)
+    check = pd.concat(checks, ignore_index=True) if checks else pd.DataFrame(columns=CHECK_COLUMNS)
+    return rows, report[REPORT_COLUMNS], check[CHECK_COLUMNS]
+
+
+def _report(out: pd.DataFrame, step: str, keep_growth: bool = False) -> pd.DataFrame:
+    df = out.copy()
+    df["step"] = step
+    df["period"] = df["year"].astype(str) + "-Q" + df["quarter"].astype(str)
+    df["adjustment"] = df["after"] - df["before"]
+    df["adjustment_pct"] = (100 * df["adjustment"] / df["before"].abs()).where(df["before"] != 0)
+    df = df.sort_values(["economy", "price_basis", "item", "year", "quarter"], kind="mergesort")
+    if not keep_growth:
+        df["growth_before_pct"] = _growth(df, "before")
+        df["growth_after_pct"] = _growth(df, "after")
+    return df
+
+
+def _apply(rows: pd.DataFrame, out: pd.DataFrame) -> pd.DataFrame:
+    key = ["economy", "price_basis", "item", "year", "quarter"]
+    new = out[key + ["after"]]
+    merged = rows.merge(new, on=key, how="left", validate="many_to_one")
+    hit = merged["after"].notna() & (merged["frequency"] == "Q")
+    rows = rows.copy()
+    rows.loc[hit.to_numpy(), "value"] = merged.loc[hit, "after"].to_numpy()
+    return rows
+
+
+def _annual_checks(out: pd.DataFrame, targets: pd.DataFrame, name: str, annual_rate: bool) -> pd.DataFrame:
+    agg = out.groupby(["economy", "price_basis", "item", "year"])[["before", "after"]].agg(["sum", "size"])
+    agg.columns = ["before", "n", "after", "n2"]
+    agg = agg[agg["n"] == 4].reset_index()
+    if annual_rate:
+        agg[["before", "after"]] /= 4
+    t = targets.rename(columns={"series": "item", "value": "benchmark"})
+    m = agg.merge(t, on=["economy", "price_basis", "item", "year"])
+    rows = []
+    for when in ("before", "after"):
+        resid = m[when] - m["benchmark"]
+        tol = 1e-6 * m["benchmark"].abs().clip(lower=1)
+        rows.append(pd.DataFrame({
+            "economy": m["economy"], "period": m["year"].astype(str), "check": f"{name}_{when}_" + m["price_basis"],
+            "item": m["item"], "value": resid, "tolerance": tol,
+            "status": np.where(resid.abs() <= tol, "pass", "warn" if when == "before" else "fail"),
+        }))
+    return pd.concat(rows, ignore_index=True)
+
+
+def _identity_checks(resid: pd.DataFrame, aggregate: str) -> pd.DataFrame:
+    rows = []
+    for when in ("before", "after"):
+        value = resid[f"residual_{when}"]
+        tol = 1e-9 * resid["total"].abs().clip(lower=1)
+        rows.append(pd.DataFrame({
+            "economy": resid["economy"], "period": resid["period"],
+            "check": f"reconcile_identity_{when}_" + resid["price_basis"], "item": aggregate, "value": value,
+            "tolerance": tol, "status": np.where(value.abs() <= tol, "pass", "warn" if when == "before" else "fail"),
+        }))
+    return pd.concat(rows, ignore_index=True)
+
+
+def _benchmark_file(accounts_dir: Path, config: Config) -> pd.DataFrame | None:
+    """Annual benchmarks from the configured file (input format, years only), or None."""
+    from valvol.io.readers import READERS
+    from valvol.validate import parse_rows, row_problems
+
+    name = config.benchmark.benchmarks or config.reconcile.benchmarks
+    if not name:
+        return None
+    path = Path(accounts_dir) / name
+    if not path.is_file() or path.suffix.lower() not in READERS:
+        raise ConfigError(f"benchmarks file {name} not found (a .csv or .parquet file, relative to the accounts folder)")
+    if path.parent.resolve() == Path(accounts_dir).resolve():
+        raise ConfigError(f"benchmarks file {name} must sit in a sub-folder: every file of the accounts folder "
+                          "is read as accounts")
+    raw, first = READERS[path.suffix.lower()](path)
+    raw.columns = [str(c).strip().lower() for c in raw.columns]
+    for col in ("adjustment", "unit"):
+        if col not in raw:
+            raw[col] = ""
+    raw.insert(0, "source_row", np.arange(first, first + len(raw), dtype="int64"))
+    raw.insert(0, "source_file", name)
+    rows = parse_rows(raw.astype({c: "str" for c in raw.columns if c != "source_row"}))
+    problems = row_problems(rows, config)
+    problems += [Problem(file=name, row=int(r.source_row), economy=r.economy, item=r.item, period=r.period,
+                         reason="benchmarks must be years (YYYY)") for r in rows[rows["frequency"] != "A"].itertuples()]
+    if problems:
+        raise InputError(problems)
+    return rows
