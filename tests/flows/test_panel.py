@@ -34,7 +34,6 @@ def digest(out):
 
 def test_thread_and_dask_runners_give_identical_tables(prefect_harness, demo_dir, tmp_path):
     from prefect.settings import PREFECT_API_URL
-
     from valvol.flows.rebuild import dask_runner, rebuild_flow
 
     accounts = panel_accounts(demo_dir, tmp_path / "panel")
