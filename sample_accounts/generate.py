@@ -14,10 +14,15 @@ and the release of one quarter earlier, 2012-Q1 .. 2025-Q3
 (``build_earlier_release``), whose last five quarters are first estimates that
 differ from the current release by seeded revisions of quantities and prices.
 
-Run ``python sample_accounts/generate.py`` to rewrite ``accounts.csv`` next to
-this file and ``earlier_release/accounts.csv``; the output is byte-identical on
-every run. Importing the module has no side effects. The module is standalone
-(numpy and pandas only) so that it documents the construction on its own.
+Each release also carries the income side at current prices (D1, B2A3G, D2X3,
+adding up to B1GQ) in its ``accounts.csv`` and a monthly consumer price index
+(``build_cpi``) in its own ``cpi.csv``; the CPI is built once from the simulated
+household prices and is the same in both releases.
+
+Run ``python sample_accounts/generate.py`` to rewrite ``accounts.csv`` and
+``cpi.csv`` next to this file and in ``earlier_release/``; the output is
+byte-identical on every run. Importing the module has no side effects. The module
+is standalone (numpy and pandas only) so that it documents the construction on its own.
 """
 
 from __future__ import annotations
@@ -160,6 +165,94 @@ REVISION_P52 = 0.0009
 #: Price reference of the sign-changing items: P52 (stocks of manufactured goods) is valued
 #: at the price of imported manufactures, P53 (worked corvite stones) at the ore price.
 SIGN_CHANGING_PRICE = {"P52": ("P7", "imported manufactures"), "P53": ("P6", "corvite ore")}
+
+#: Income side, at current prices only: compensation of employees D1, taxes on production and
+#: imports less subsidies D2X3, and gross operating surplus and mixed income B2A3G, which
+#: closes the income identity D1 + B2A3G + D2X3 = B1GQ (no income-side discrepancy).
+INCOME_ITEMS = ["D1", "B2A3G", "D2X3"]
+INCOME_SEED = SEED + 20
+#: Labour input n: log n = LABOUR_ELASTICITY·log X + noise (X chain-linked GDP; labour hoarding).
+LABOUR_ELASTICITY = 0.75
+LABOUR_NOISE = 0.0010
+#: Wage rate w, quarterly log growth: (θ·π_CPI(t−L) + (1−θ)·π* + g*)/4 + κ·(log s* − log s(t−1)) +
+#: noise, with π_CPI the CPI's year-on-year log change L quarters back (indexation on past
+#: consumer prices) and s = D1/B1GQ the labour share, pulled back to s* by bargaining.
+WAGE_INDEXATION = 0.75  # θ
+WAGE_LAG = 4  # L, quarters
+TREND_INFLATION = 0.018  # π*, a year
+TREND_PRODUCTIVITY = 0.0055  # g*, a year: (1 − ε) times trend GDP growth
+WAGE_CORRECTION = 0.10  # κ, a quarter
+LABOUR_SHARE = 0.51  # s*, also the share in 2012-Q1
+WAGE_NOISE = 0.0015
+#: Net taxes: TAX_ON_CONSUMPTION·P31_S14 + TAX_ON_OUTPUT·B1GQ (times noise) less subsidies:
+#: SUBSIDY_BASE·B1GQ, the job-retention subsidies (``lockdown``, a share of GDP) of 2020-2021
+#: and the energy subsidies of 2022-2023 (``energy``, a share of the imported energy bill).
+TAX_ON_CONSUMPTION = 0.140
+TAX_ON_OUTPUT = 0.042
+TAX_NOISE = 0.004
+SUBSIDY_BASE = 0.006
+SUBSIDY_KNOTS = pd.DataFrame(
+    [
+        ("2010-Q4", 0.000, 0.00),
+        ("2019-Q4", 0.000, 0.00),
+        ("2020-Q1", 0.002, 0.00),
+        ("2020-Q2", 0.020, 0.00),
+        ("2020-Q3", 0.008, 0.00),
+        ("2020-Q4", 0.006, 0.00),
+        ("2021-Q1", 0.005, 0.00),
+        ("2021-Q2", 0.003, 0.00),
+        ("2021-Q3", 0.001, 0.00),
+        ("2021-Q4", 0.000, 0.00),
+        ("2022-Q1", 0.000, 0.08),
+        ("2022-Q2", 0.000, 0.18),
+        ("2022-Q3", 0.000, 0.24),
+        ("2022-Q4", 0.000, 0.26),
+        ("2023-Q1", 0.000, 0.20),
+        ("2023-Q2", 0.000, 0.12),
+        ("2023-Q3", 0.000, 0.06),
+        ("2023-Q4", 0.000, 0.03),
+        ("2024-Q1", 0.000, 0.00),
+        ("2025-Q4", 0.000, 0.00),
+    ],
+    columns=["knot", "lockdown", "energy"],
+)
+
+#: Consumer price index (monthly, 2020 = 100) of the household products of P31_S14.
+#: scope: CPI expenditure weight relative to national-accounts household consumption (household
+#: budget weights put more on energy; owner-occupiers' imputed rent is left out, so housing keeps
+#: only actual rentals); noise: monthly white noise of the log price.
+CPI_SEED = SEED + 21
+CPI_ITEM = "CPI"
+CPI_PRICE_BASIS = "index"
+CPI_ADJUSTMENT = "N"
+CPI_UNIT = "index 2020=100"
+CPI_OUTPUT = "cpi.csv"
+CPI_PRODUCTS = pd.DataFrame(
+    [
+        ("food", 1.00, 0.0015),
+        ("household energy", 1.30, 0.0030),
+        ("imported manufactures", 1.00, 0.0010),
+        ("services", 1.00, 0.0005),
+        ("housing", 0.30, 0.0003),
+    ],
+    columns=["product", "scope", "noise"],
+)
+#: Fixed baskets: a basket starts in January of ``start`` and holds the quantities bought in
+#: ``weight_year`` (times scope); renewed every two years, every year from 2022.
+CPI_BASKETS = pd.DataFrame(
+    [
+        (2011, 2011),
+        (2014, 2012),
+        (2016, 2014),
+        (2018, 2016),
+        (2020, 2018),
+        (2022, 2020),
+        (2023, 2021),
+        (2024, 2022),
+        (2025, 2023),
+    ],
+    columns=["start", "weight_year"],
+)
 
 
 def _periods() -> pd.DataFrame:
@@ -515,6 +608,189 @@ def _round(x: pd.Series | np.ndarray) -> np.ndarray:
     return np.round(np.asarray(x, dtype=float), 1) + 0.0
 
 
+def _monthly(log_quarterly: np.ndarray) -> np.ndarray:
+    """Monthly log levels from quarterly ones (one row per series), 2011-01 .. 2025-12.
+
+    Notes
+    -----
+    Within quarter q the log level is linear, x(q, m) = x_q + (m − 2)·b_q for its months
+    m = 1, 2, 3, with the centred monthly slope b_q = (x_{q+1} − x_{q−1})/6 (one-sided,
+    (x_1 − x_0)/3 and (x_Q − x_{Q−1})/3, at the ends). The three months average to x_q, the
+    monthly change is constant within a quarter, and at steady growth g a quarter it is g/3
+    across the quarter boundaries too.
+    """
+    padded = np.concatenate(
+        [
+            2.0 * log_quarterly[:, :1] - log_quarterly[:, 1:2],
+            log_quarterly,
+            2.0 * log_quarterly[:, -1:] - log_quarterly[:, -2:-1],
+        ],
+        axis=1,
+    )
+    slope = (padded[:, 2:] - padded[:, :-2]) / 6.0
+    offset = np.tile(np.arange(-1.0, 2.0), log_quarterly.shape[1])
+    return np.repeat(log_quarterly, 3, axis=1) + np.repeat(slope, 3, axis=1) * offset
+
+
+def consumer_price_index() -> pd.DataFrame:
+    """Unrounded monthly consumer price index, 2011-01 .. 2025-12, 2020 average = 100.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns ``year, month, period`` (``YYYY-MM``) and ``value``. Built from the prices of the
+        simulation (``simulate_products``), never from first estimates: the CPI is not revised.
+
+    Notes
+    -----
+    Fixed-basket (Laspeyres-type) index with baskets renewed in January (``CPI_BASKETS``): basket b
+    holds q_{j,b} = scope_j·Q_{j,w(b)}, the annual quantities of its weight year times the CPI
+    scope of the product, and is linked in December:
+    I(t) = I(link_b)·Σ_j q_{j,b}·p_j(t) / Σ_j q_{j,b}·p_j(link_b), link_b the December before the
+    basket starts (the first month for the first basket). Monthly prices interpolate the
+    quarterly ones (``_monthly``) times seeded monthly noise. Against the household consumption
+    deflator (national-accounts scope, chained yearly with current-year weights) the CPI has
+    fixed weights, a larger energy weight and no owner-occupiers' imputed rent.
+
+    References
+    ----------
+    McCully, Moyer and Stewart, "Comparing the Consumer Price Index and the Personal Consumption
+    Expenditures Price Index", *Survey of Current Business*, Nov 2007 (fixed basket, weights
+    renewed every two years); ECB *Economic Bulletin* 1/2022, Eiglsperger et al. (no
+    owner-occupied housing in the HICP); valvol METHODS.md section 6.
+    """
+    products = simulate_products()
+    household = products[products["item"] == "P31_S14"]
+    names = CPI_PRODUCTS["product"].to_numpy()
+    log_price = np.log(
+        household.pivot(index="product", columns="period", values="price").loc[names].to_numpy()
+    )
+    quantity = household.groupby(["product", "year"])["quantity"].sum().unstack("year").loc[names]
+    rng = np.random.default_rng(CPI_SEED)
+    noise = (
+        rng.normal(0.0, 1.0, size=(len(names), 3 * N_QUARTERS)) * CPI_PRODUCTS["noise"].to_numpy()[:, None]
+    )
+    price = np.exp(_monthly(log_price) + noise).T  # months x products
+    months = np.arange(3 * N_QUARTERS)
+    year = FIRST_SIMULATED_YEAR + months // 12
+    starts = CPI_BASKETS["start"].to_numpy()
+    basket = quantity[CPI_BASKETS["weight_year"].to_numpy()].to_numpy().T * CPI_PRODUCTS["scope"].to_numpy()
+    link = np.maximum(12 * (starts - FIRST_SIMULATED_YEAR) - 1, 0)  # December before the start
+    segment = np.searchsorted(starts, year, side="right") - 1
+    relative = (basket[segment] * price).sum(axis=1) / (basket[segment] * price[link[segment]]).sum(axis=1)
+    step = (basket[:-1] * price[link[1:]]).sum(axis=1) / (basket[:-1] * price[link[:-1]]).sum(axis=1)
+    level = np.concatenate([[1.0], np.cumprod(step)])[segment] * relative
+    month = months % 12 + 1
+    level = 100.0 * level / level[year == REFERENCE_YEAR].mean()
+    period = pd.Series(year).astype(str) + "-" + pd.Series(month).astype(str).str.zfill(2)
+    return pd.DataFrame({"year": year, "month": month, "period": period, "value": level})
+
+
+def build_cpi(last_quarter: str = LAST_QUARTER) -> pd.DataFrame:
+    """The published CPI of a release, 2012-01 .. the last month of ``last_quarter``.
+
+    Parameters
+    ----------
+    last_quarter
+        Last quarter of the release (``YYYY-Qn``); the CPI is the same in every release.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns ``economy, period, item, price_basis, value, adjustment, unit``: item ``CPI``,
+        price basis ``index``, periods ``YYYY-MM``, not seasonally adjusted (``N``), 2020 = 100,
+        one decimal.
+    """
+    end = 3 * (_check_quarter(last_quarter) + 1)
+    cpi = consumer_price_index().iloc[:end]
+    cpi = cpi[cpi["year"] >= FIRST_YEAR]
+    return pd.DataFrame(
+        {
+            "economy": ECONOMY,
+            "period": cpi["period"].to_numpy(),
+            "item": CPI_ITEM,
+            "price_basis": CPI_PRICE_BASIS,
+            "value": _round(cpi["value"]),
+            "adjustment": CPI_ADJUSTMENT,
+            "unit": CPI_UNIT,
+        }
+    )[COLUMNS]
+
+
+def _discount_cumsum(v: np.ndarray, decay: float) -> np.ndarray:
+    """s(t) = decay·s(t−1) + v(t), s(0) = v(0), by a cumulative sum (each s(t) uses v up to t only)."""
+    power = decay ** np.arange(len(v), dtype=float)
+    return power * np.cumsum(v / power)
+
+
+def _income(products: pd.DataFrame, levels: pd.DataFrame, clv: pd.DataFrame, gdp: pd.Series) -> pd.DataFrame:
+    """D1, B2A3G and D2X3 at current prices, 2012-Q1 .. the release's last quarter, rounded.
+
+    Parameters
+    ----------
+    products, levels, clv
+        The release's products, unrounded levels and unrounded chain-linked volumes.
+    gdp
+        Published (rounded) B1GQ at current prices, indexed by period.
+
+    Notes
+    -----
+    D1 = w·n with labour input log n = ε·log X (X chain-linked GDP) and a wage rate w whose
+    log growth is m(t) + κ·(log s* − s(t−1)), m(t) = (θ·π_CPI(t−L) + (1−θ)·π* + g*)/4 + noise
+    (π_CPI the CPI's y/y log change, π* before the CPI has one); so the log labour share
+    s = log(D1/Y) follows s(t) = (1−κ)·s(t−1) + κ·log s* + m(t) + Δ(log n − log Y)(t),
+    s(2012-Q1) = log s*. D2X3 = (τ_c·P31_S14 + τ_y·Y)·noise − (σ_0 + σ_L(t))·Y − σ_E(t)·E,
+    E the imported energy bill. D1 and D2X3 are rounded; B2A3G = B1GQ − D1 − D2X3 from the
+    rounded values, so the income identity holds to floating-point precision.
+
+    References
+    ----------
+    valvol METHODS.md section 4.2 (income side, Y = W + Π + T; unit profits as in ECB *Economic
+    Bulletin* 6/2019, box by Hahn); the income approach to GDP of the SNA (common practice).
+    """
+    cur = levels[levels["year"] >= FIRST_YEAR].pivot(index="period", columns="item", values="c")
+    real = clv[clv["item"] == "B1GQ"].set_index("period")["clv"].reindex(cur.index)
+    energy = products[products["product"] == "imported energy"].set_index("period")
+    bill = (energy["price"] * energy["quantity"]).reindex(cur.index).to_numpy()
+    first = 4 * (FIRST_YEAR - FIRST_SIMULATED_YEAR)
+    end = first + len(cur)
+    rng = np.random.default_rng(INCOME_SEED)
+    draws = rng.normal(0.0, 1.0, size=(3, N_QUARTERS))[:, first:end]
+    cpi = consumer_price_index()
+    log_cpi = np.log(cpi.groupby(np.arange(len(cpi)) // 3)["value"].mean().to_numpy())
+    inflation = np.full(N_QUARTERS, TREND_INFLATION)
+    inflation[4 + WAGE_LAG :] = (log_cpi[4:] - log_cpi[:-4])[: N_QUARTERS - 4 - WAGE_LAG]
+    y = cur["B1GQ"].to_numpy()
+    log_n = LABOUR_ELASTICITY * np.log(real.to_numpy()) + LABOUR_NOISE * draws[0]
+    u = log_n - np.log(y)
+    wage = (
+        WAGE_INDEXATION * inflation[first:end]
+        + (1.0 - WAGE_INDEXATION) * TREND_INFLATION
+        + TREND_PRODUCTIVITY
+    ) / 4.0 + WAGE_NOISE * draws[1]
+    target = np.log(LABOUR_SHARE)
+    v = WAGE_CORRECTION * target + wage + np.diff(u, prepend=np.nan)
+    v[0] = target
+    d1 = np.exp(_discount_cumsum(v, 1.0 - WAGE_CORRECTION)) * y
+    subsidy = _interpolate(SUBSIDY_KNOTS)[:, first:end]
+    taxes = (TAX_ON_CONSUMPTION * cur["P31_S14"].to_numpy() + TAX_ON_OUTPUT * y) * np.exp(
+        TAX_NOISE * draws[2]
+    )
+    d2x3 = taxes - (SUBSIDY_BASE + subsidy[0]) * y - subsidy[1] * bill
+    d1, d2x3 = _round(d1), _round(d2x3)
+    b2a3g = _round(gdp.reindex(cur.index).to_numpy() - d1 - d2x3)
+    n = len(INCOME_ITEMS)
+    return pd.DataFrame(
+        {
+            "item": np.repeat(INCOME_ITEMS, len(cur)),
+            "year": np.tile(cur.index.str[:4].astype("int64").to_numpy(), n),
+            "period": np.tile(cur.index.to_numpy(), n),
+            "value": np.concatenate([d1, b2a3g, d2x3]),
+            "price_basis": "current",
+        }
+    )
+
+
 def build_release(last_quarter: str, revision_seed: int | None = None) -> pd.DataFrame:
     """One release of the demo accounts of XQ in the input contract, 2012-Q1 .. ``last_quarter``.
 
@@ -539,14 +815,18 @@ def build_release(last_quarter: str, revision_seed: int | None = None) -> pd.Dat
     P53, B1GQ = P3 + P5 + P6 − P7 + YA1), so the identities hold to floating-point
     precision. Chain-linked volumes are computed from the unrounded values, each aggregate
     from its own sums, then rounded; none is published for P52, P53 or YA1. A release ending
-    before Q4 links the quarters of its incomplete last year on the previous year.
+    before Q4 links the quarters of its incomplete last year on the previous year. The income
+    items D1, B2A3G and D2X3 (current prices, ``_income``) follow all expenditure rows, which
+    are the same as without them.
     """
-    levels = unrounded_levels(last_quarter, revision_seed)
+    products, shares = release_inputs(last_quarter, revision_seed)
+    levels = _aggregate(_unrounded_components(products, shares), ["c", "k"])
     components = levels[levels["item"].isin(COMPONENTS)]
     clv = _chain_link(levels)
     rounded = components.assign(c=_round(components["c"]), k=_round(components["k"]))
     rounded = _aggregate(rounded, ["c", "k"])
     rounded = rounded.assign(c=_round(rounded["c"]), k=_round(rounded["k"]))
+    gdp = rounded[rounded["item"] == "B1GQ"].set_index("period")["c"]
     long = pd.concat(
         [
             rounded[["item", "year", "period", "c"]]
@@ -556,12 +836,13 @@ def build_release(last_quarter: str, revision_seed: int | None = None) -> pd.Dat
             .rename(columns={"k": "value"})
             .assign(price_basis="previous_year"),
             clv[["item", "year", "period"]].assign(value=_round(clv["clv"]), price_basis="chain_linked"),
+            _income(products, levels, clv, gdp),
         ],
         ignore_index=True,
     )
     long = long[long["year"] >= FIRST_YEAR]
     long = long.assign(
-        item_rank=long["item"].map({item: i for i, item in enumerate(ITEMS)}),
+        item_rank=long["item"].map({item: i for i, item in enumerate(ITEMS + INCOME_ITEMS)}),
         basis_rank=long["price_basis"].map({basis: i for i, basis in enumerate(PRICE_BASES)}),
     ).sort_values(["item_rank", "basis_rank", "period"], kind="mergesort", ignore_index=True)
     return long.assign(economy=ECONOMY, adjustment=ADJUSTMENT, unit=UNIT)[COLUMNS]
@@ -597,7 +878,7 @@ def to_csv_text(frame: pd.DataFrame) -> str:
 
 
 def main(folder: Path = FOLDER) -> None:
-    """Write both releases: ``folder/accounts.csv`` and ``folder/earlier_release/accounts.csv``.
+    """Write both releases: ``accounts.csv`` and ``cpi.csv`` in ``folder`` and in ``folder/earlier_release``.
 
     Parameters
     ----------
@@ -606,10 +887,14 @@ def main(folder: Path = FOLDER) -> None:
     """
     folder = Path(folder)
     (folder / EARLIER_FOLDER).mkdir(parents=True, exist_ok=True)
-    (folder / OUTPUT.name).write_text(to_csv_text(build_accounts()), encoding="utf-8", newline="")
-    (folder / EARLIER_FOLDER / EARLIER_OUTPUT.name).write_text(
-        to_csv_text(build_earlier_release()), encoding="utf-8", newline=""
-    )
+    tables = {
+        folder / OUTPUT.name: build_accounts(),
+        folder / CPI_OUTPUT: build_cpi(LAST_QUARTER),
+        folder / EARLIER_FOLDER / EARLIER_OUTPUT.name: build_earlier_release(),
+        folder / EARLIER_FOLDER / CPI_OUTPUT: build_cpi(EARLIER_LAST_QUARTER),
+    }
+    for path, table in tables.items():
+        path.write_text(to_csv_text(table), encoding="utf-8", newline="")
 
 
 if __name__ == "__main__":

@@ -2,14 +2,16 @@
 
 The demo economy (the invented Republic of Quillon, currency the tessel) is built by
 ``sample_accounts/generate.py`` from invented product quantities and prices. These tests check
-the committed file against the generator and the data against the rules of the trade they must
+the committed files against the generator and the data against the rules of the trade they must
 obey. The earlier release (``sample_accounts/earlier_release/``, one quarter shorter, with first
-estimates of its last five quarters) is checked against the later one at the end. Sources are named
-beside each check; METHODS.md is ``/work/shared/METHODS.md``.
+estimates of its last five quarters) is checked against the later one; the income side (D1, B2A3G,
+D2X3 at current prices) and the monthly consumer price index (``cpi.csv``) at the end. Sources are
+named beside each check; METHODS.md is ``/work/shared/METHODS.md``.
 """
 
 from __future__ import annotations
 
+import hashlib
 import importlib.util
 import tomllib
 from pathlib import Path
@@ -18,12 +20,16 @@ import numpy as np
 import pandas as pd
 import pytest
 
+from valvol.io.readers import account_files
+
 ROOT = Path(__file__).resolve().parents[2]
 FOLDER = ROOT / "sample_accounts"
 GENERATOR = FOLDER / "generate.py"
 ACCOUNTS = FOLDER / "accounts.csv"
 EARLIER_FOLDER = FOLDER / "earlier_release"
 EARLIER = EARLIER_FOLDER / "accounts.csv"
+CPI = FOLDER / "cpi.csv"
+EARLIER_CPI = EARLIER_FOLDER / "cpi.csv"
 
 COLUMNS = ["economy", "period", "item", "price_basis", "value", "adjustment", "unit"]
 COMPONENTS = ["P31_S14", "P3_S15", "P3_S13", "P51G", "P52", "P53", "P6", "P7", "YA1"]
@@ -36,6 +42,7 @@ AGGREGATES = {
 LEAVES = {"P3": 3, "P5": 3, "B1GQ": 9}
 CHAINED = ["P31_S14", "P3_S15", "P3_S13", "P3", "P51G", "P5", "P6", "P7", "B1GQ"]
 SIGN_CHANGING = ["P52", "P53", "YA1"]
+INCOME = ["D1", "B2A3G", "D2X3"]  # published at current prices only
 ROUND_Q = 0.05  # half a unit of the published last decimal, one quarter
 ROUND_A = 4 * ROUND_Q  # four rounded quarters in a year
 
@@ -120,10 +127,12 @@ def test_import_has_no_side_effects():
     assert callable(module.build_accounts)
 
 
-def test_folder_holds_one_accounts_file():
-    # The accounts reader takes every .csv and .parquet file of the folder as accounts.
+def test_folder_holds_the_accounts_and_the_cpi():
+    # The accounts reader takes every .csv and .parquet file of the folder as accounts: the accounts
+    # and the CPI (its rows have price basis ``index``) and nothing else.
     files = sorted(p.name for p in FOLDER.iterdir() if p.suffix in {".csv", ".parquet"})
-    assert files == ["accounts.csv"]
+    assert files == ["accounts.csv", "cpi.csv"]
+    assert [p.name for p in account_files(FOLDER)] == files
 
 
 def test_config_matches_the_generator(gen):
@@ -147,13 +156,15 @@ def test_input_contract(committed):
     assert (committed["unit"] == "tessel million").all()
     periods = [f"{y}-Q{q}" for y in range(2012, 2026) for q in range(1, 5)]
     assert sorted(committed["period"].unique()) == periods
-    assert set(committed["item"]) == set(COMPONENTS) | set(AGGREGATES)
+    assert set(committed["item"]) == set(COMPONENTS) | set(AGGREGATES) | set(INCOME)
     assert not committed.duplicated(["item", "price_basis", "period"]).any()
     bases = committed.groupby("item")["price_basis"].agg(lambda s: tuple(sorted(set(s))))
     for item in CHAINED:
         assert bases[item] == ("chain_linked", "current", "previous_year"), item
     for item in SIGN_CHANGING:  # METHODS.md sections 1 and 2.4: no ratio chaining of sign-changing items
         assert bases[item] == ("current", "previous_year"), item
+    for item in INCOME:  # income flows have no price and volume of their own (METHODS.md section 5)
+        assert bases[item] == ("current",), item
     assert (committed.groupby(["item", "price_basis"]).size() == 56).all()
     tenths = committed["value"].to_numpy() * 10.0
     np.testing.assert_allclose(tenths, np.round(tenths), rtol=0, atol=1e-6)
@@ -387,15 +398,17 @@ def test_main_regenerates_both_files_identically(gen, tmp_path):
     # Common practice: a seeded generator rewrites byte-identical files on every run; the committed
     # files come from an earlier run, so a fresh run into an empty folder must give the same bytes.
     gen.main(tmp_path)
-    assert sorted(p.name for p in tmp_path.rglob("*") if p.is_file()) == ["accounts.csv", "accounts.csv"]
-    assert (tmp_path / "accounts.csv").read_bytes() == ACCOUNTS.read_bytes()
-    assert (tmp_path / "earlier_release" / "accounts.csv").read_bytes() == EARLIER.read_bytes()
+    written = sorted(p.name for p in tmp_path.rglob("*") if p.is_file())
+    assert written == ["accounts.csv", "accounts.csv", "cpi.csv", "cpi.csv"]
+    for committed_file in [ACCOUNTS, CPI, EARLIER, EARLIER_CPI]:
+        fresh = tmp_path / committed_file.relative_to(FOLDER)
+        assert fresh.read_bytes() == committed_file.read_bytes(), committed_file.name
 
 
 def test_earlier_folder_is_one_release_with_the_same_config():
     # The accounts reader takes every .csv/.parquet of a folder and no sub-folder: the earlier release
-    # has its own folder with only its accounts and the same valvol.toml as the later one.
-    assert sorted(p.name for p in EARLIER_FOLDER.iterdir()) == ["accounts.csv", "valvol.toml"]
+    # has its own folder with only its accounts, its CPI and the same valvol.toml as the later one.
+    assert sorted(p.name for p in EARLIER_FOLDER.iterdir()) == ["accounts.csv", "cpi.csv", "valvol.toml"]
     assert (EARLIER_FOLDER / "valvol.toml").read_bytes() == (FOLDER / "valvol.toml").read_bytes()
 
 
@@ -421,7 +434,7 @@ def test_earlier_release_identical_before_the_revised_quarters(vintages):
     # annual overlap a quarter of y depends only on y-1 and earlier years and on the quarter itself,
     # CLV(s,y) = k(s,y) * CLV_{y-1} / C_{y-1} (METHODS.md 2.2; ABS 5216.0 ch.6 Annex eq.(1)).
     before = vintages[vintages.index.get_level_values("period") < "2024-Q3"]
-    assert len(before) == 33 * 50
+    assert len(before) == 36 * 50  # 36 series (33 expenditure, 3 income) over 2012-Q1 .. 2024-Q2
     for basis in ["current", "previous_year", "chain_linked"]:
         rows = before.xs(basis, level="price_basis")
         assert (rows["earlier"] == rows["later"]).all(), basis
@@ -461,7 +474,7 @@ def test_revisions_present_in_every_revised_quarter(vintages):
     changed = (window["earlier"] != window["later"]).groupby(level=["item", "price_basis"]).sum()
     for basis in ["current", "previous_year", "chain_linked"]:
         assert changed.loc[("B1GQ", basis)] == 5, basis
-    for item in ["P51G", "P52", "P3", "P6", "P7"]:
+    for item in ["P51G", "P52", "P3", "P6", "P7", *INCOME]:
         assert changed.loc[(item, "current")] >= 4, item
 
 
@@ -532,3 +545,185 @@ def test_bad_last_quarter_is_refused(gen):
     for label in ["2025Q3", "2026-Q1", "2019-Q4"]:
         with pytest.raises(ValueError, match="last quarter"):
             gen.build_release(label)
+
+
+# --- the income side (D1, B2A3G, D2X3 at current prices) --------------------------------------
+
+#: sha256 of the header and expenditure rows of each accounts.csv, as committed before the income
+#: rows were appended after them (common practice: a regression pin on committed data).
+EXPENDITURE_SHA256 = {
+    "accounts.csv": "007d7315596c27f1302d0e8dc2692d3ffece54a971a1413f87e0daa039b4a520",
+    "earlier_release/accounts.csv": "42216df64215b432faded5563e6667af0db617cc19b6e4fd680ea05325d423b3",
+}
+
+
+def _unit_incomes(annual: pd.DataFrame) -> tuple[pd.Series, pd.DataFrame]:
+    """Annual GDP deflator D = Y/X and unit incomes U_k = income_k/X, X the chain-linked GDP (METHODS.md 4.2)."""
+    real = annual.loc["B1GQ", "chain_linked"]
+    current = annual["current"].unstack("item")
+    return current["B1GQ"] / real, current[INCOME].div(real, axis=0)
+
+
+def _income_contributions(annual: pd.DataFrame) -> pd.DataFrame:
+    """ctr_k = 100 (U_k,t - U_k,t-1) / D_t-1, pp (METHODS.md 4.2, level form)."""
+    deflator, units = _unit_incomes(annual)
+    return 100.0 * units.diff().div(deflator.shift(1), axis=0)
+
+
+@pytest.mark.parametrize("path", sorted(EXPENDITURE_SHA256))
+def test_income_rows_are_appended_after_unchanged_expenditure_rows(path):
+    text = (FOLDER / path).read_text(encoding="utf-8")
+    lines = text.splitlines(keepends=True)
+    items = [line.split(",")[2] for line in lines[1:]]
+    first_income = items.index(INCOME[0]) + 1
+    assert set(items[first_income - 1 :]) == set(INCOME)
+    assert not set(items[: first_income - 1]) & set(INCOME)
+    head = "".join(lines[:first_income]).encode("utf-8")
+    assert hashlib.sha256(head).hexdigest() == EXPENDITURE_SHA256[path]
+
+
+@pytest.mark.parametrize("release", ["later", "earlier"])
+def test_income_identity_holds_each_quarter(committed, earlier, release):
+    # SNA income approach (common practice; METHODS.md 4.2: Y = W + Pi + T (+ S)): D1 + B2A3G + D2X3 =
+    # B1GQ at current prices; the demo has no income-side discrepancy S.
+    table = _wide_basis(committed if release == "later" else earlier, "current")
+    assert table[INCOME].notna().all().all()
+    total = table["D1"] + table["B2A3G"] + table["D2X3"]
+    np.testing.assert_allclose(total, table["B1GQ"], rtol=0, atol=1e-6)
+
+
+def test_income_shares_of_gdp(annual, committed):
+    # Design of the demo: compensation of employees about half of GDP, net taxes on production and
+    # imports 10-12%, the operating surplus and mixed income the rest (annual shares, current prices).
+    current = annual["current"].unstack("item")
+    shares = 100.0 * current[INCOME].div(current["B1GQ"], axis=0)
+    bounds = {"D1": (47.5, 52.5), "D2X3": (9.5, 12.5), "B2A3G": (35.0, 42.0)}
+    for item, (lo, hi) in bounds.items():
+        assert shares[item].between(lo, hi).all(), item
+    quarterly = _wide_basis(committed, "current")
+    assert (quarterly[INCOME] > 0).all().all()
+    assert (100.0 * quarterly["D1"] / quarterly["B1GQ"]).between(46.0, 55.0).all()
+
+
+def test_income_contributions_add_up_to_the_gdp_deflator(annual):
+    # METHODS.md 4.2 [DERIVED]: D = ULC + UP + UT (+ US), so the contributions add up to the growth of
+    # the GDP deflator; unit profits = operating surplus over real GDP (ECB Economic Bulletin 6/2019,
+    # box by Hahn, as quoted in METHODS.md 4.2). Here within floating-point precision (no discrepancy).
+    deflator, _ = _unit_incomes(annual)
+    growth = 100.0 * (deflator / deflator.shift(1) - 1.0)
+    total = _income_contributions(annual).sum(axis=1, min_count=3)
+    np.testing.assert_allclose(total.iloc[1:], growth.iloc[1:], rtol=0, atol=1e-9)
+
+
+def test_unit_profits_drive_the_gdp_deflator_in_the_export_boom(annual):
+    # Design of the demo: in the 2024-2025 ore export boom the operating surplus jumps, so unit
+    # profits grow faster than unit labour costs and contribute most to GDP deflator growth
+    # (METHODS.md 4.2: ULC = D1/X, UP = B2A3G/X, X chain-linked GDP).
+    _, units = _unit_incomes(annual)
+    unit_growth = 100.0 * (units / units.shift(1) - 1.0)
+    assert unit_growth.loc[2024, "B2A3G"] > unit_growth.loc[2024, "D1"] + 3.0
+    ctr = _income_contributions(annual)
+    for year in (2024, 2025):
+        assert ctr.loc[year, "B2A3G"] == ctr.loc[year, INCOME].max(), year
+        assert ctr.loc[year, "B2A3G"] > 3.0, year
+
+
+def test_energy_shock_squeezes_real_wages_and_cuts_net_taxes(annual):
+    # Design of the demo: in 2022 wages lag consumer prices (unit labour costs grow far less than the
+    # household consumption deflator) and catch up in 2023; energy subsidies make net taxes on
+    # production and imports fall in 2022 (METHODS.md 4.2: use the level form when net taxes move
+    # sharply).
+    _, units = _unit_incomes(annual)
+    ulc_growth = 100.0 * (units["D1"] / units["D1"].shift(1) - 1.0)
+    hh = {year: _deflator_growth(annual, "P31_S14", year) for year in (2022, 2023)}
+    assert ulc_growth.loc[2022] < hh[2022] - 3.0
+    assert ulc_growth.loc[2023] > hh[2023]
+    d2x3 = annual.loc["D2X3", "current"]
+    assert d2x3.loc[2022] < d2x3.loc[2021]
+    assert _income_contributions(annual).loc[2022, "D2X3"] < 0.0
+
+
+# --- the consumer price index (cpi.csv, monthly, 2020 = 100) ----------------------------------
+
+CPI_COLUMNS_FIXED = {
+    "economy": "XQ",
+    "item": "CPI",
+    "price_basis": "index",
+    "adjustment": "N",
+    "unit": "index 2020=100",
+}
+
+
+@pytest.fixture(scope="module")
+def cpi():
+    return pd.read_csv(CPI, dtype={"value": "float64"}, keep_default_na=False)
+
+
+@pytest.fixture(scope="module")
+def earlier_cpi():
+    return pd.read_csv(EARLIER_CPI, dtype={"value": "float64"}, keep_default_na=False)
+
+
+def _months(last: str) -> list[str]:
+    return [f"{y}-{m:02d}" for y in range(2012, 2026) for m in range(1, 13) if f"{y}-{m:02d}" <= last]
+
+
+def _cpi_quarterly(frame: pd.DataFrame) -> pd.Series:
+    """Quarterly CPI: the mean of the three monthly levels (METHODS.md 6 [MEMORY, common practice])."""
+    month = frame["period"].str[5:7].astype("int64")
+    label = frame["period"].str[:4] + "-Q" + ((month + 2) // 3).astype(str)
+    return frame.groupby(label)["value"].mean()
+
+
+def test_cpi_files_are_the_generator_output(gen):
+    # Common practice for committed generated data: each release's cpi.csv is reproduced by the generator.
+    assert gen.to_csv_text(gen.build_cpi(gen.LAST_QUARTER)) == CPI.read_text(encoding="utf-8")
+    assert gen.to_csv_text(gen.build_cpi(gen.EARLIER_LAST_QUARTER)) == EARLIER_CPI.read_text(encoding="utf-8")
+    pd.testing.assert_frame_equal(gen.consumer_price_index(), gen.consumer_price_index())
+
+
+@pytest.mark.parametrize("release", ["later", "earlier"])
+def test_cpi_format(cpi, earlier_cpi, release):
+    # valvol's price-index input (README of the demo): the input columns, item CPI, price basis index,
+    # contiguous months YYYY-MM, one decimal, 2020 average = 100 (within the rounding of 12 months).
+    frame, last = (cpi, "2025-12") if release == "later" else (earlier_cpi, "2025-09")
+    assert list(frame.columns) == COLUMNS
+    for column, value in CPI_COLUMNS_FIXED.items():
+        assert (frame[column] == value).all(), column
+    assert frame["period"].tolist() == _months(last)
+    assert (frame["value"] > 0).all()
+    tenths = frame["value"].to_numpy() * 10.0
+    np.testing.assert_allclose(tenths, np.round(tenths), rtol=0, atol=1e-6)
+    assert abs(frame.loc[frame["period"].str.startswith("2020"), "value"].mean() - 100.0) <= 0.05
+
+
+def test_cpi_is_not_revised(cpi, earlier_cpi):
+    # Design (CPIs are usually not revised): the earlier release's CPI is the later one's up to 2025-09.
+    assert len(earlier_cpi) == len(cpi) - 3
+    pd.testing.assert_frame_equal(earlier_cpi, cpi.iloc[: len(earlier_cpi)])
+
+
+def test_cpi_moves_smoothly_within_quarters(cpi):
+    # Design of the demo: monthly prices interpolate the quarterly ones with a constant monthly change
+    # inside each quarter, plus small monthly noise.
+    change = 100.0 * (cpi["value"] / cpi["value"].shift(1) - 1.0)
+    assert change.abs().max() < 2.0
+    by_quarter = change.to_numpy().reshape(-1, 3)  # months 1, 2, 3 of each quarter
+    assert np.abs(by_quarter[:, 2] - by_quarter[:, 1]).max() < 0.5
+
+
+def test_cpi_tracks_the_household_deflator_and_exceeds_it_at_the_energy_peak(cpi, committed):
+    # METHODS.md 6: growth gaps in pp y/y, a monthly CPI entering as the quarterly mean of its levels
+    # [MEMORY, common practice]. Coverage (METHODS.md 6; ECB Economic Bulletin 1/2022, Eiglsperger
+    # et al.: no owner-occupied housing in the HICP) and fixed-basket weights (McCully, Moyer & Stewart,
+    # SCB Nov 2007, as quoted in METHODS.md 6) make the CPI run above the household consumption
+    # deflator when energy prices jump (design: 1-2 pp at the 2022 peak); otherwise it tracks it.
+    quarterly = _cpi_quarterly(cpi)
+    hh = _wide_basis(committed, "current")["P31_S14"] / _wide_basis(committed, "chain_linked")["P31_S14"]
+    cpi_yoy = 100.0 * (quarterly / quarterly.shift(4) - 1.0)
+    hh_yoy = 100.0 * (hh / hh.shift(4) - 1.0)
+    gap = (cpi_yoy - hh_yoy).dropna()
+    assert len(gap) == 52  # 2013-Q1 .. 2025-Q4
+    assert any(0.5 <= gap.loc[q] <= 3.0 for q in ["2022-Q3", "2022-Q4"])
+    assert gap.abs().mean() < 0.8
+    assert np.corrcoef(cpi_yoy.dropna(), hh_yoy.dropna())[0, 1] > 0.95
