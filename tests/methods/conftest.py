@@ -12,12 +12,12 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
+from support import uk_release
 
 from valvol.frames import LEVEL_COLUMNS, period_label
 from valvol.hierarchy import Hierarchy
 
 REFERENCE = Path(__file__).resolve().parents[1] / "reference_data"
-UK_FILE = REFERENCE / "uk_ons_qna_2023-03-31.csv"
 
 #: Expenditure components of UK GDP in the release, with their signs (B1GQ identity of the
 #: reference README: B1GQ = P31_S14 + P3_S15 + P3_S13 + P51G + P52 + P53 + P6 - P7 + YA1).
@@ -26,18 +26,12 @@ UK_POSITIVE = ["P31_S14", "P3_S15", "P3_S13", "P51G", "P6", "P7"]
 UK_HIERARCHY = Hierarchy.from_mapping({"B1GQ": UK_COMPONENTS})
 
 
-def _read_uk() -> pd.DataFrame:
-    d = pd.read_csv(UK_FILE, dtype={"period": str})
-    d["year"] = d["period"].str[:4].astype("int64")
-    d["quarter"] = np.where(d["period"].str.contains("Q"), d["period"].str[-1], "0").astype("int64")
-    d["frequency"] = np.where(d["quarter"] > 0, "Q", "A")
-    return d
 
 
 @pytest.fixture(scope="session")
 def uk_raw() -> pd.DataFrame:
     """The release as stored (long: economy, period, item, measure, unit, adjustment, value)."""
-    return _read_uk()
+    return uk_release()
 
 
 def _levels(d: pd.DataFrame, measure: str, basis: str) -> pd.DataFrame:

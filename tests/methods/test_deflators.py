@@ -9,30 +9,22 @@ growth rates carry one decimal (tolerance +-0.05); the 2022 = 100 deflator four 
 
 from __future__ import annotations
 
-from pathlib import Path
-
 import numpy as np
 import pandas as pd
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from support import uk_release
 
 from valvol.errors import InputError
 from valvol.frames import LEVEL_COLUMNS, period_label
 from valvol.hierarchy import Hierarchy
 from valvol.methods.deflators import deflator_growth, implicit_deflators, pivot_bases
 
-UK_FILE = Path(__file__).resolve().parents[1] / "reference_data" / "uk_ons_qna_2023-03-31.csv"
 ONE_DECIMAL = 0.05 + 1e-9
 HIER = Hierarchy.default()
 
 
-def uk_release() -> pd.DataFrame:
-    d = pd.read_csv(UK_FILE, dtype={"period": str})
-    d["year"] = d["period"].str[:4].astype("int64")
-    d["quarter"] = np.where(d["period"].str.contains("Q"), d["period"].str[-1], "0").astype("int64")
-    d["frequency"] = np.where(d["quarter"] > 0, "Q", "A")
-    return d
 
 
 def uk_levels(d: pd.DataFrame) -> pd.DataFrame:

@@ -9,77 +9,26 @@ METHODS.md sections 5 and 6 (ESA 95 paras 10.57-10.59).
 
 from __future__ import annotations
 
-from pathlib import Path
-
 import numpy as np
 import pandas as pd
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from support import make_panel, uk_panel, uk_release
 
 from valvol.errors import ConfigError, InputError
-from valvol.frames import LEVEL_COLUMNS, period_label
 from valvol.hierarchy import Hierarchy
 from valvol.methods.deflators import deflator_growth, implicit_deflators
 from valvol.methods.price_gaps import MEASURE_COLUMNS, NUMERAIRES, price_gaps
 
-UK_FILE = Path(__file__).resolve().parents[1] / "reference_data" / "uk_ons_qna_2023-03-31.csv"
-UK_POSITIVE = ["P31_S14", "P3_S15", "P3_S13", "P51G", "P6", "P7"]
 GAP_MEASURES = ["gap_gdp_vs_domestic_demand", "gap_export_price_part", "gap_import_price_part", "gap_other_part"]
 
 
 # --- panel builders (test helpers) -----------------------------------------------------------
 
 
-def rows_of(economy, item, basis, freq, years, quarters, values):
-    return pd.DataFrame({"economy": economy, "item": item, "price_basis": basis, "frequency": freq,
-                         "year": np.asarray(years, dtype="int64"), "quarter": np.asarray(quarters, dtype="int64"),
-                         "value": np.asarray(values, dtype="float64")})
 
 
-def make_panel(prices, quantities, spec=(), *, first_year=2000, ref_year=2000, economy="XX"):
-    """Quarterly and annual current, previous-year-price and annual-overlap chained values.
-
-    PYP = quantity x unit value of the previous year (first year: its own), QNA 2017 ch. 8;
-    CLV_y = CLV_{y-1} K_y / C_{y-1}, CLV_r = C_r, CLV(s, y) = k(s, y) CLV_y / K_y (METHODS.md
-    2.2). ``spec``: bottom-up (aggregate, [(item, sign), ...]) summed at current and
-    previous-year prices. Series with a non-positive value get no chained rows.
-    """
-    n = len(next(iter(prices.values())))
-    yi = np.arange(n) // 4
-    years, quarters = first_year + yi, np.arange(n) % 4 + 1
-    ck = {}
-    for it in prices:
-        p, q = np.asarray(prices[it], float), np.asarray(quantities[it], float)
-        unit = np.bincount(yi, p * q) / np.bincount(yi, q)
-        ck[it] = (p * q, np.r_[unit[0], unit[:-1]][yi] * q)
-    for agg, comps in spec:
-        ck[agg] = tuple(sum(s * ck[i][j] for i, s in comps) for j in (0, 1))
-    cols: dict[str, list] = {"item": [], "price_basis": [], "frequency": [], "year": [], "quarter": [], "value": []}
-
-    def add(item, basis, freq, yrs, qtrs, values):
-        for key, v in zip(cols, (item, basis, freq, yrs, qtrs, values), strict=True):
-            cols[key].append(np.broadcast_to(np.asarray(v), (len(values),)))
-
-    ay = first_year + np.arange(yi[-1] + 1)
-    zero = np.zeros(len(ay), dtype="int64")
-    for it, (c, k) in ck.items():
-        ca, ka = np.bincount(yi, c), np.bincount(yi, k)
-        add(it, "current", "Q", years, quarters, c)
-        add(it, "previous_year", "Q", years, quarters, k)
-        add(it, "current", "A", ay, zero, ca)
-        add(it, "previous_year", "A", ay, zero, ka)
-        if (c > 0).all() and (k > 0).all():
-            va = np.cumprod(np.r_[1.0, ka[1:] / ca[:-1]])
-            va *= ca[ref_year - first_year] / va[ref_year - first_year]
-            add(it, "chain_linked", "Q", years, quarters, k * (va / ka)[yi])
-            add(it, "chain_linked", "A", ay, zero, va)
-    lv = pd.DataFrame({key: np.concatenate(v) for key, v in cols.items()})
-    lv.insert(0, "economy", economy)
-    lv = lv.astype({"item": "str", "price_basis": "str", "frequency": "str", "year": "int64", "quarter": "int64",
-                    "value": "float64"})
-    lv["period"] = period_label(lv["year"], lv["quarter"]).to_numpy()
-    return lv[LEVEL_COLUMNS]
 
 
 SPEC = [("P3", [("P31_S14", 1), ("P3_S13", 1)]), ("P5", [("P51G", 1), ("P52", 1)]),
@@ -250,41 +199,8 @@ def test_gap_annual_k_share_formula_and_derived_domestic_demand():
 # --- UK release ----------------------------------------------------------------------------
 
 
-def uk_release() -> pd.DataFrame:
-    d = pd.read_csv(UK_FILE, dtype={"period": str})
-    d["year"] = d["period"].str[:4].astype("int64")
-    d["quarter"] = np.where(d["period"].str.contains("Q"), d["period"].str[-1], "0").astype("int64")
-    d["frequency"] = np.where(d["quarter"] > 0, "Q", "A")
-    return d
 
 
-def uk_panel(d: pd.DataFrame) -> pd.DataFrame:
-    """Current prices, chained volumes and derived previous-year prices of the release.
-
-    As the reference README explains: PYP(i,t) = CVM(i,t) CP(i,y-1)/CVM(i,y-1) for GDP and
-    the positive components; P52 and P53 at GDP's deflator of y-1; YA1 closes the identity.
-    P3 and P5 are summed; the published P3_P5 is not used (domestic demand = P3 + P5).
-    """
-    basis = {"current_prices": "current", "chain_linked_volume": "chain_linked"}
-    items = ["B1GQ", *UK_POSITIVE, "P52", "P53", "YA1"]
-    x = d[d["measure"].isin(basis) & d["item"].isin(items)].assign(price_basis=lambda t: t["measure"].map(basis))
-    w = x.pivot_table(index=["frequency", "year", "quarter"], columns=["price_basis", "item"], values="value")
-    cp, cvm = w["current"], w["chain_linked"]
-    annual = (cp / cvm).xs("A", level="frequency").droplevel("quarter")
-    defl = annual.reindex(w.index.get_level_values("year") - 1).set_axis(w.index)
-    pyp = pd.DataFrame({i: cvm[i] * defl[i] for i in ["B1GQ", *UK_POSITIVE]}
-                       | {i: cvm[i] * defl["B1GQ"] for i in ["P52", "P53"]})
-    cur = cp[items].copy()
-    for t in (cur, pyp):
-        t["YA1"] = t["B1GQ"] - t[UK_POSITIVE[:-1] + ["P52", "P53"]].sum(axis=1) + t["P7"]
-        t["P3"] = t["P31_S14"] + t["P3_S15"] + t["P3_S13"]
-        t["P5"] = t["P51G"] + t["P52"] + t["P53"]
-        t.columns.name = "item"
-    long = pd.concat([t.stack().rename("value").reset_index().assign(price_basis=b)
-                      for b, t in (("current", cur), ("previous_year", pyp))], ignore_index=True)
-    lv = pd.concat([long.assign(economy="UK"), x[x["price_basis"] == "chain_linked"]], ignore_index=True)
-    lv["period"] = period_label(lv["year"], lv["quarter"]).to_numpy()
-    return lv[LEVEL_COLUMNS].dropna().reset_index(drop=True)
 
 
 @pytest.fixture(scope="module")
