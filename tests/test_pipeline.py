@@ -81,3 +81,15 @@ def test_failed_rebuild_leaves_previous_outputs_intact(demo_dir, tmp_path):
         pipeline.rebuild(bad, out)
     assert _digest(out) == before and (out / "latest").resolve() == latest
     assert not any((out / ".staging").iterdir())
+
+
+def test_fisher_index_needs_given_volumes(accounts, tmp_path):
+    # Fisher chains need each period's prices and quantities (METHODS.md 3.5): without given
+    # chain-linked volumes the rebuild stops with a located error (common practice)
+    rows = "".join(f"XQ,2020-Q{q},P6,{b},{10 + q}\n" for q in range(1, 5) for b in ("current", "previous_year"))
+    folder = accounts("economy,period,item,price_basis,value\n" + rows, '[volumes]\nindex = "fisher"\n')
+    with pytest.raises(InputError) as err:
+        pipeline.rebuild(folder, tmp_path / "out", charts=False)
+    got = {(p.economy, p.item, p.price_basis) for p in err.value.problems}
+    assert got == {("XQ", "P6", "chain_linked"), ("XQ", "B1GQ", "chain_linked")}  # B1GQ derived from P6
+    assert all("fisher" in p.reason for p in err.value.problems)

@@ -111,6 +111,9 @@ def derive_volumes(con: duckdb.DuckDBPyConnection, config: Config) -> None:
             given = pd.concat([given[~given["economy"].isin(moved["economy"].unique())], moved])
     pyp_economies = levels.loc[levels["price_basis"] == "previous_year", "economy"].unique()
     computed = pd.DataFrame(columns=LEVEL_COLUMNS)
+    if config.volumes.index == "fisher":
+        _require_given_volumes(current, given, h)
+        pyp_economies = []  # Fisher chains need both years' prices: only given volumes are used
     if len(pyp_economies):
         base = levels[levels["economy"].isin(pyp_economies) & levels["price_basis"].isin(["current", "previous_year"])]
         computed = chainlink.chain_link(
@@ -139,6 +142,23 @@ def derive_volumes(con: duckdb.DuckDBPyConnection, config: Config) -> None:
         ],
     )
     log.info("volumes: %d given, %d chain-linked here, %d residual rows", len(given), len(computed), len(residual))
+
+
+def _require_given_volumes(current: pd.DataFrame, given: pd.DataFrame, h) -> None:
+    """Under ``[volumes] index = "fisher"`` every positive series needs its given chain-linked volume."""
+    from valvol.errors import InputError, Problem
+
+    key = ["economy", "item"]
+    have = given[key].drop_duplicates()
+    need = current[~current["item"].map(h.is_sign_changing)][key].drop_duplicates()
+    missing = need.merge(have, on=key, how="left", indicator=True).query("_merge == 'left_only'")
+    if len(missing):
+        raise InputError([
+            Problem(economy=r.economy, item=r.item, price_basis="chain_linked",
+                    reason='[volumes] index = "fisher": chain-linked volumes must be given (a Fisher chain '
+                           "cannot be built from previous-year prices alone)")
+            for r in missing.itertuples(index=False)
+        ])
 
 
 def _given_reference_year(given: pd.DataFrame, current: pd.DataFrame) -> int | None:
