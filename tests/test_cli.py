@@ -3,7 +3,8 @@
 from __future__ import annotations
 
 import subprocess
-import sys
+
+from support import valvol_command
 
 from valvol.cli import main
 
@@ -16,7 +17,7 @@ def test_check_valid_demo(demo_dir, capsys):
 def test_invalid_input_exit_2_located_no_traceback(accounts):
     folder = accounts("economy,period,item,price_basis,value\nXQ,2020-Q9,P6,current,1\n")
     proc = subprocess.run(
-        [sys.executable, "-m", "valvol.cli", "-q", "check", str(folder)], capture_output=True, text=True
+        [*valvol_command(), "-q", "check", str(folder)], capture_output=True, text=True, cwd=folder
     )
     assert proc.returncode == 2
     assert "accounts.csv:2 XQ/P6/current/2020-Q9: period must be YYYY-Qn, YYYYQn or YYYY" in proc.stderr

@@ -12,20 +12,20 @@ import json
 import os
 import signal
 import subprocess
-import sys
 import time
 from pathlib import Path
 
 import pytest
+from support import valvol_command
 
 from valvol import pipeline
 
-CLI = [sys.executable, "-m", "valvol.cli"]
+CLI = valvol_command()
 
 
 def _start(demo_dir: Path, out: Path, *extra: str) -> subprocess.Popen:
     return subprocess.Popen([*CLI, "-q", "rebuild", str(demo_dir), "--out", str(out), "--no-flow", "--force",
-                             *extra], stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+                             *extra], stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, cwd=out.parent)
 
 
 def _published_state(out: Path) -> dict:
@@ -51,7 +51,7 @@ def test_sigkill_at_any_point_leaves_previous_vintage_intact(demo_dir, tmp_path)
         assert now_latest == before_latest or (now_latest / "manifest.json").exists()
         assert state
     done = subprocess.run([*CLI, "-q", "rebuild", str(demo_dir), "--out", str(out), "--no-flow", "--force"],
-                          capture_output=True, text=True, timeout=300)
+                          capture_output=True, text=True, timeout=300, cwd=tmp_path)
     assert done.returncode == 0, done.stderr
     assert not (out / ".staging").exists() or not any((out / ".staging").iterdir())
     _published_state(out)
@@ -69,7 +69,7 @@ def test_two_rebuilds_at_once_one_waits_nothing_corrupted(demo_dir, tmp_path):
             break
         time.sleep(0.05)
     second = subprocess.run([*CLI, "-q", "rebuild", str(demo_dir), "--out", str(out), "--no-flow", "--force"],
-                            capture_output=True, text=True, timeout=120)
+                            capture_output=True, text=True, timeout=120, cwd=tmp_path)
     first_out, first_err = first.communicate(timeout=300)
     assert second.returncode == 3
     assert "another rebuild is writing to" in second.stderr and "Traceback" not in second.stderr
@@ -88,7 +88,7 @@ def test_invalid_input_leaves_outputs_untouched_from_the_cli(demo_dir, tmp_path)
     bad.mkdir()
     (bad / "a.csv").write_text("economy,period,item,price_basis,value\nXQ,2020-Q1,P6,current,-1\n")
     proc = subprocess.run([*CLI, "-q", "rebuild", str(bad), "--out", str(out), "--no-flow"],
-                          capture_output=True, text=True, timeout=120)
+                          capture_output=True, text=True, timeout=120, cwd=tmp_path)
     assert proc.returncode == 2 and "a.csv:2 XQ/P6/current/2020-Q1: negative level" in proc.stderr
     assert _published_state(out) == before
 
@@ -100,7 +100,7 @@ def test_scheduled_rebuild_fires_and_stops_cleanly(demo_dir, tmp_path):
     env = {k: v for k, v in os.environ.items() if not k.startswith("PREFECT_")}
     proc = subprocess.Popen([*CLI, "serve", str(demo_dir), "--out", str(out), "--interval", "10"],
                             stdout=subprocess.PIPE, stderr=subprocess.STDOUT, text=True, env=env,
-                            start_new_session=True)
+                            start_new_session=True, cwd=tmp_path)
     try:
         deadline = time.monotonic() + 240
         while time.monotonic() < deadline and not (out / "latest" / "manifest.json").exists():

@@ -5,6 +5,7 @@ Importable as ``support`` (pytest puts ``tests/`` on ``sys.path``: ``pythonpath`
 
 from __future__ import annotations
 
+import sys
 from pathlib import Path
 
 import numpy as np
@@ -108,3 +109,13 @@ def uk_panel(d: pd.DataFrame) -> pd.DataFrame:
     lv = pd.concat([long.assign(economy="UK"), x[x["price_basis"] == "chain_linked"]], ignore_index=True)
     lv["period"] = period_label(lv["year"], lv["quarter"]).to_numpy()
     return lv[LEVEL_COLUMNS].dropna().reset_index(drop=True)
+
+
+def valvol_command() -> list[str]:
+    """The installed ``valvol`` console script, as a user runs it (``python -m valvol.cli`` if absent).
+
+    Subprocesses should also run outside the repository (``cwd``): there, ``python -m`` would
+    import the source folder ``valvol/``, which lacks the sub-packages the installation maps in.
+    """
+    script = Path(sys.executable).with_name("valvol")
+    return [str(script)] if script.exists() else [sys.executable, "-m", "valvol.cli"]
