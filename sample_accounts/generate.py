@@ -19,10 +19,17 @@ adding up to B1GQ) in its ``accounts.csv`` and a monthly consumer price index
 (``build_cpi``) in its own ``cpi.csv``; the CPI is built once from the simulated
 household prices and is the same in both releases.
 
+A third folder, ``first_estimate/``, holds a flash estimate of 2025 at current prices
+(``build_first_estimate``): the components' 2025 quarters carried forward from 2024-Q4 with
+seeded, biased indicators, GDP and the discrepancy as in the later release, and the 2025
+annual totals of the components as benchmarks (``build_benchmarks``), for the
+reconciliation walkthrough of the README.
+
 Run ``python sample_accounts/generate.py`` to rewrite ``accounts.csv`` and
-``cpi.csv`` next to this file and in ``earlier_release/``; the output is
-byte-identical on every run. Importing the module has no side effects. The module
-is standalone (numpy and pandas only) so that it documents the construction on its own.
+``cpi.csv`` next to this file and in ``earlier_release/``, and ``accounts.csv`` and
+``annual/benchmarks.csv`` in ``first_estimate/``; the output is byte-identical on every run.
+Importing the module has no side effects. The module is standalone (numpy and pandas only) so
+that it documents the construction on its own.
 """
 
 from __future__ import annotations
@@ -252,6 +259,37 @@ CPI_BASKETS = pd.DataFrame(
         (2025, 2023),
     ],
     columns=["start", "weight_year"],
+)
+
+#: Flash estimate of ``FLASH_YEAR`` (folder ``first_estimate/``): the quarters of that year at current
+#: prices as the office estimated them from monthly indicators before the year's annual accounts
+#: existed, to be reconciled to the annual totals (``annual/benchmarks.csv``, the later release's
+#: sums) and to the quarterly GDP of the production side (the later release's B1GQ, held as the
+#: total). Earlier quarters are the later release's. Only current prices are published.
+FLASH_FOLDER = "first_estimate"
+FLASH_BENCHMARKS = "annual/benchmarks.csv"  # in a sub-folder: the reader would take it as accounts
+FLASH_YEAR = 2025
+FLASH_SEED = SEED + 22
+FLASH_COMPONENTS = ["P31_S14", "P3_S15", "P3_S13", "P51G", "P52", "P53", "P6", "P7"]
+FLASH_DISCREPANCY = "YA1"  # held at the later release's values: a fixed discrepancy in the identity
+FLASH_TOTAL = "B1GQ"
+FLASH_ITEMS = [*FLASH_COMPONENTS, FLASH_DISCREPANCY, FLASH_TOTAL]
+FLASH_SIGNS = {item: -1 if item == "P7" else 1 for item in FLASH_COMPONENTS}
+FLASH_BUDGET = ["P3_S13"]  # government consumption from the budget: already right, held fixed
+FLASH_RULE = ["P52", "P53"]  # no indicator: each quarter repeats the previous year's quarterly mean
+FLASH_CLOSING = "P31_S14"  # its benchmark closes any rounding gap of the annual system
+#: Indicator of each remaining component: the true movement at current prices (volume times price)
+#: times a seeded error whose quarterly log growth is bias/4 plus noise (standard deviation
+#: ``noise``), so that the error reaches about ``bias`` (in logs) by Q4.
+FLASH_INDICATORS = pd.DataFrame(
+    [
+        ("P31_S14", "retail sales (goods; misses the growth of services)", -0.0075, 0.0004),
+        ("P3_S15", "membership-fee survey of non-profit institutions", 0.0050, 0.0004),
+        ("P51G", "construction output and equipment deliveries", 0.0150, 0.0010),
+        ("P6", "customs exports (misses tourism services)", -0.0075, 0.0005),
+        ("P7", "customs imports", 0.0060, 0.0005),
+    ],
+    columns=["item", "indicator", "bias", "noise"],
 )
 
 
@@ -872,13 +910,148 @@ def build_earlier_release() -> pd.DataFrame:
     return build_release(EARLIER_LAST_QUARTER, REVISION_SEED)
 
 
+def indicator_errors() -> pd.DataFrame:
+    """Seeded errors of the flash indicators in the quarters of ``FLASH_YEAR`` (log levels).
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns ``item, period, error``: one row per indicator item (``FLASH_INDICATORS``) and
+        quarter of ``FLASH_YEAR``; ``error`` is the log of the indicator's level over the true
+        level, both relative to the previous year's Q4.
+
+    Notes
+    -----
+    e_i(h) = Σ_{k≤h} (b_i/4 + σ_i·z_i(k)), h = 1 .. 4 the quarters of the year, b_i the bias and
+    σ_i the noise of ``FLASH_INDICATORS``, z independent standard normal draws (seed
+    ``FLASH_SEED``): a drift that cumulates to about b_i by Q4, plus noise.
+    """
+    rng = np.random.default_rng(FLASH_SEED)
+    n = len(FLASH_INDICATORS)
+    drift = FLASH_INDICATORS["bias"].to_numpy()[:, None] / 4.0
+    noise = rng.normal(0.0, 1.0, size=(n, 4)) * FLASH_INDICATORS["noise"].to_numpy()[:, None]
+    periods = [f"{FLASH_YEAR}-Q{q}" for q in range(1, 5)]
+    return pd.DataFrame(
+        {
+            "item": np.repeat(FLASH_INDICATORS["item"].to_numpy(), 4),
+            "period": np.tile(periods, n),
+            "error": np.cumsum(drift + noise, axis=1).ravel(),
+        }
+    )
+
+
+def _later_current(accounts: pd.DataFrame | None) -> pd.DataFrame:
+    """Current-price rows of the flash items in the later release (``accounts``, else built)."""
+    accounts = build_accounts() if accounts is None else accounts
+    keep = (accounts["price_basis"] == "current") & accounts["item"].isin(FLASH_ITEMS)
+    return accounts[keep].reset_index(drop=True)
+
+
+def build_first_estimate(accounts: pd.DataFrame | None = None) -> pd.DataFrame:
+    """The flash estimate of ``FLASH_YEAR`` at current prices, 2012-Q1 .. 2025-Q4.
+
+    Parameters
+    ----------
+    accounts
+        The later release (``build_accounts()``, built when ``None``).
+
+    Returns
+    -------
+    pandas.DataFrame
+        The input columns; current prices only, the items ``FLASH_ITEMS`` in the later release's
+        order (no P3, P5: derived from their components). Up to the previous year's Q4 every value
+        is the later release's; in ``FLASH_YEAR`` the components are first estimates, the
+        discrepancy YA1 and GDP B1GQ (the production side's, held as the total) the later
+        release's.
+
+    Notes
+    -----
+    Indicator items (``FLASH_INDICATORS``): the published Q4 of the previous year carried forward
+    with the indicator's movement, F_i(h) = V_i(Q4) · c_i(h)/c_i(Q4) · exp(e_i(h)), c the true
+    unrounded value at current prices (volume times price) and e the indicator error
+    (``indicator_errors``). Government consumption (``FLASH_BUDGET``) comes from the budget and is
+    right. Inventories and valuables (``FLASH_RULE``) have no indicator: each quarter repeats the
+    mean of the previous year's published quarters. Rounded to one decimal. Extrapolating a
+    quarterly indicator from the last known quarter is the usual basis of a flash estimate
+    (IMF, *Quarterly National Accounts Manual*, 2017 Edition, ch. 6, on indicator-based
+    quarterly estimates before the annual benchmark; common practice).
+    """
+    later = _later_current(accounts)
+    last = f"{FLASH_YEAR - 1}-Q4"
+    published = later.set_index(["item", "period"])["value"]
+    truth = unrounded_levels().set_index(["item", "period"])["c"]
+    errors = indicator_errors()
+    base_truth = errors["item"].map(truth.xs(last, level="period"))
+    base_value = errors["item"].map(published.xs(last, level="period"))
+    now = truth.reindex(pd.MultiIndex.from_frame(errors[["item", "period"]])).to_numpy()
+    indicated = errors.assign(flash=base_value * now / base_truth * np.exp(errors["error"]))
+    previous = later[later["item"].isin(FLASH_RULE) & later["period"].str.startswith(str(FLASH_YEAR - 1))]
+    rule_mean = previous.groupby("item")["value"].mean()
+    rule = pd.DataFrame(
+        {
+            "item": np.repeat(FLASH_RULE, 4),
+            "period": np.tile([f"{FLASH_YEAR}-Q{q}" for q in range(1, 5)], len(FLASH_RULE)),
+        }
+    )
+    rule["flash"] = rule["item"].map(rule_mean)
+    flash = pd.concat([indicated[["item", "period", "flash"]], rule], ignore_index=True)
+    merged = later.merge(flash, on=["item", "period"], how="left", validate="one_to_one")
+    value = np.where(merged["flash"].notna(), _round(merged["flash"].fillna(0.0)), later["value"].to_numpy())
+    return later.assign(value=value + 0.0)[COLUMNS]
+
+
+def build_benchmarks(accounts: pd.DataFrame | None = None) -> pd.DataFrame:
+    """Annual benchmarks of ``FLASH_YEAR``: each component's true total, from the annual accounts.
+
+    Parameters
+    ----------
+    accounts
+        The later release (``build_accounts()``, built when ``None``).
+
+    Returns
+    -------
+    pandas.DataFrame
+        The input columns, one row per component of ``FLASH_COMPONENTS``, period ``YYYY``, price
+        basis ``current``, rounded to one decimal.
+
+    Notes
+    -----
+    A_i = Σ_q V_i(q), the sum of the later release's (rounded) quarters of the year. The system is
+    consistent: Σ_i s_i A_i + Σ_q YA1(q) = Σ_q B1GQ(q), s_i = −1 for imports P7; any rounding gap
+    g = Σ_q B1GQ(q) − Σ_q YA1(q) − Σ_i s_i A_i goes into the benchmark of ``FLASH_CLOSING``
+    (sign +1) before rounding (IMF, *Quarterly National Accounts Manual*, 2017 Edition, §6.5.A:
+    the annual benchmarks of a reconciled system must add up to the annual total).
+    """
+    later = _later_current(accounts)
+    year = later[later["period"].str.startswith(str(FLASH_YEAR))]
+    sums = year.groupby("item")["value"].sum()
+    components = sums.reindex(FLASH_COMPONENTS)
+    signs = pd.Series(FLASH_SIGNS).reindex(FLASH_COMPONENTS)
+    gap = sums[FLASH_TOTAL] - sums[FLASH_DISCREPANCY] - (signs * components).sum()
+    components[FLASH_CLOSING] += gap * signs[FLASH_CLOSING]
+    return pd.DataFrame(
+        {
+            "economy": ECONOMY,
+            "period": str(FLASH_YEAR),
+            "item": FLASH_COMPONENTS,
+            "price_basis": "current",
+            "value": _round(components.to_numpy()),
+            "adjustment": ADJUSTMENT,
+            "unit": UNIT,
+        }
+    )[COLUMNS]
+
+
 def to_csv_text(frame: pd.DataFrame) -> str:
     """The CSV text of ``frame`` as committed: one decimal, ``\\n`` line ends."""
     return frame.to_csv(index=False, float_format="%.1f", lineterminator="\n")
 
 
 def main(folder: Path = FOLDER) -> None:
-    """Write both releases: ``accounts.csv`` and ``cpi.csv`` in ``folder`` and in ``folder/earlier_release``.
+    """Write both releases and the flash estimate.
+
+    ``accounts.csv`` and ``cpi.csv`` in ``folder`` and in ``folder/earlier_release``;
+    ``accounts.csv`` and ``annual/benchmarks.csv`` in ``folder/first_estimate``.
 
     Parameters
     ----------
@@ -887,11 +1060,15 @@ def main(folder: Path = FOLDER) -> None:
     """
     folder = Path(folder)
     (folder / EARLIER_FOLDER).mkdir(parents=True, exist_ok=True)
+    (folder / FLASH_FOLDER / FLASH_BENCHMARKS).parent.mkdir(parents=True, exist_ok=True)
+    accounts = build_accounts()
     tables = {
-        folder / OUTPUT.name: build_accounts(),
+        folder / OUTPUT.name: accounts,
         folder / CPI_OUTPUT: build_cpi(LAST_QUARTER),
         folder / EARLIER_FOLDER / EARLIER_OUTPUT.name: build_earlier_release(),
         folder / EARLIER_FOLDER / CPI_OUTPUT: build_cpi(EARLIER_LAST_QUARTER),
+        folder / FLASH_FOLDER / OUTPUT.name: build_first_estimate(accounts),
+        folder / FLASH_FOLDER / FLASH_BENCHMARKS: build_benchmarks(accounts),
     }
     for path, table in tables.items():
         path.write_text(to_csv_text(table), encoding="utf-8", newline="")

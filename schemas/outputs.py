@@ -126,6 +126,8 @@ reconciliation = pa.DataFrameSchema(
         "after": pa.Column(float, _FINITE),
         "adjustment": pa.Column(float, _FINITE),
         "adjustment_pct": pa.Column(float, nullable=True),
+        "adjustment_annual": pa.Column(float, _FINITE),
+        "adjustment_identity": pa.Column(float, _FINITE),
         "constraint": pa.Column(str),
         "growth_before_pct": pa.Column(float, nullable=True),
         "growth_after_pct": pa.Column(float, nullable=True),

@@ -116,3 +116,19 @@ def test_benchmarking_one_series_to_its_years(demo_dir, tmp_path):
     report = pd.read_parquet(out / "reconciliation.parquet")
     # a uniform 1% rise of every year: proportional Denton gives the pro-rata result
     assert np.allclose(report["adjustment_pct"], 1.0, atol=0.06)
+
+
+def test_demo_flash_estimate_walkthrough(demo_dir, tmp_path, capsys):
+    # sample_accounts/first_estimate (README walkthrough): benchmarks in a sub-folder file
+    to = tmp_path / "reconciled_fe"
+    assert main(["-q", "reconcile", str(demo_dir / "first_estimate"), "--to", str(to)]) == 0
+    assert (to / "annual" / "benchmarks.csv").exists()  # the file the copied config names
+    assert main(["-q", "rebuild", str(to), "--out", str(tmp_path / "o"), "--no-flow", "--no-charts"]) == 0
+    checks = pd.read_parquet(tmp_path / "o" / "checks.parquet")
+    assert (checks["status"] != "warn").all() and (checks["status"] != "fail").all()
+    report = pd.read_csv(to / "reconciliation" / "report.csv")
+    p53 = report[report["item"] == "P53"].set_index("period")
+    # valuables change sign: adjusted additively (smooth first differences), not in proportion
+    assert p53.loc["2025-Q1", "before"] > 0 > p53.loc["2025-Q4", "after"]
+    steps = p53.loc[p53.index.str.startswith("2025"), "adjustment"].diff().dropna()
+    assert (steps < 0).all()

@@ -184,7 +184,7 @@ def _reconcile(args: argparse.Namespace) -> int:
     if args.to.resolve() == args.accounts_dir.resolve():
         raise ValvolError("--to must differ from the accounts folder (the input is never overwritten)")
     report = pipeline.reconciled_accounts(args.accounts_dir, args.to)
-    moved = report[report["adjustment"].abs() > 0]
+    moved = report[report["adjustment"].abs() > 1e-9 * report["before"].abs().clip(lower=1.0)]
     print(f"reconciled accounts written to {args.to}: {len(moved)} quarterly values adjusted "
           f"(largest {moved['adjustment_pct'].abs().max() if len(moved) else 0:.2f}%); report in "
           f"{args.to / 'reconciliation' / 'report.csv'}")

@@ -194,7 +194,8 @@ def reconcile(accounts_dir: str | Path, work: str | Path, config: Config | None 
 
 
 def _typed_report(report: pd.DataFrame) -> pd.DataFrame:
-    floats = ["before", "after", "adjustment", "adjustment_pct", "growth_before_pct", "growth_after_pct"]
+    floats = ["before", "after", "adjustment", "adjustment_pct", "adjustment_annual", "adjustment_identity",
+              "growth_before_pct", "growth_after_pct"]
     text = [c for c in reconciliation.REPORT_COLUMNS if c not in floats]
     return report.astype({**{c: "float64" for c in floats}, **{c: "str" for c in text}})
 
@@ -341,6 +342,9 @@ def reconciled_accounts(accounts_dir: str | Path, to_dir: str | Path) -> pd.Data
     report.to_csv(to_dir / "reconciliation" / "report.csv", index=False)
     if (Path(accounts_dir) / CONFIG_FILE).exists():
         shutil.copyfile(Path(accounts_dir) / CONFIG_FILE, to_dir / CONFIG_FILE)
+    for name in {config.benchmark.benchmarks, config.reconcile.benchmarks} - {""}:  # files the config names
+        (to_dir / name).parent.mkdir(parents=True, exist_ok=True)
+        shutil.copyfile(Path(accounts_dir) / name, to_dir / name)
     log.info("wrote reconciled accounts (%d rows) and the report to %s", len(out), to_dir)
     return report
 

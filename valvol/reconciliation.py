@@ -8,7 +8,9 @@ per method, `valvol.methods.benchmark` and `valvol.methods.reconcile`):
    to its annual values by proportional or additive Denton, or Chow-Lin;
 2. ``[reconcile]``: the aggregate's components are adjusted jointly so that each matches its
    annual values and, each quarter, the signed components (plus a fixed discrepancy) add to
-   the aggregate's quarterly value, which does not move.
+   the aggregate's quarterly value, which does not move. Sign-changing components
+   (inventories, valuables) keep their first differences rather than their proportional
+   movements.
 
 Annual values: the years given in the accounts (or in the ``benchmarks`` file, a CSV or
 parquet file in the input format, in a sub-folder of the accounts folder so that it is not
@@ -35,7 +37,8 @@ from valvol.config import Config
 from valvol.errors import ConfigError, InputError, Problem
 
 REPORT_COLUMNS = ["economy", "period", "item", "price_basis", "step", "before", "after", "adjustment",
-                  "adjustment_pct", "constraint", "growth_before_pct", "growth_after_pct"]
+                  "adjustment_pct", "adjustment_annual", "adjustment_identity", "constraint",
+                  "growth_before_pct", "growth_after_pct"]
 CHECK_COLUMNS = ["economy", "period", "check", "item", "value", "tolerance", "status"]
 _BY = ["economy", "price_basis"]
 
@@ -150,7 +153,8 @@ def run(rows: pd.DataFrame, config: Config, accounts_dir: Path) -> tuple[pd.Data
         first = _first_year(r.first_year, rows, signs, r.price_bases, given)
         comps, total, disc, targets = _window([comps, total, disc, targets], first)
         res = rc.reconcile(comps, signs, total, targets, fixed=r.fixed, discrepancy=disc, method=r.method,
-                           stock_flow=stock_flow, tolerance=r.tolerance, by=_BY, total_item=r.aggregate)
+                           stock_flow=stock_flow, tolerance=r.tolerance, by=_BY, total_item=r.aggregate,
+                           additive=[c for c in signs if config.hierarchy.is_sign_changing(c)])
         rep = res.report.rename(columns={"series": "item"})
         reports.append(_report(rep, "reconcile", keep_growth=True))
         rows = _apply(rows, rep)
@@ -167,6 +171,8 @@ def _report(out: pd.DataFrame, step: str, keep_growth: bool = False) -> pd.DataF
     df["adjustment"] = df["after"] - df["before"]
     df["adjustment_pct"] = (100 * df["adjustment"] / df["before"].abs()).where(df["before"] != 0)
     df = df.sort_values(["economy", "price_basis", "item", "year", "quarter"], kind="mergesort")
+    if "adjustment_annual" not in df:  # benchmarking serves the annual constraints only
+        df["adjustment_annual"], df["adjustment_identity"] = df["adjustment"], 0.0
     if not keep_growth:
         df["growth_before_pct"] = _growth(df, "before")
         df["growth_after_pct"] = _growth(df, "after")

@@ -195,7 +195,7 @@ def reconcile(components: pd.DataFrame, signs: Mapping[str, int], total: pd.Data
               *, fixed: Iterable[str] = (), discrepancy: pd.DataFrame | None = None,
               method: str = "proportional_denton", stock_flow: str = "sum", on_nonpositive: str = "additive",
               tolerance: float = 1e-6, by: str | Sequence[str] = (), total_item: str = "total",
-              ) -> ReconcileResult:
+              additive: Iterable[str] = ()) -> ReconcileResult:
     """Make quarterly components match their annual benchmarks and add up to the total each quarter.
 
     Parameters
@@ -214,6 +214,11 @@ def reconcile(components: pd.DataFrame, signs: Mapping[str, int], total: pd.Data
     stock_flow
         How quarters aggregate to the annual benchmarks and to the annual total: ``"sum"``,
         ``"average"``, ``"last"``, ``"first"`` (as in `valvol.methods.benchmark.denton`).
+    additive
+        Component series whose first differences are preserved instead of their movements in
+        proportion (proportional Denton only), whatever their sign: items that change sign,
+        such as inventories and valuables, whose proportional changes are meaningless
+        (METHODS.md 2.4); other series switch to it when ``on_nonpositive`` says so.
     on_nonpositive
         Proportional Denton only, for a movable component with a zero or negative value
         (inventories, valuables): ``"additive"`` (default) preserves its first differences
@@ -362,11 +367,12 @@ def reconcile(components: pd.DataFrame, signs: Mapping[str, int], total: pd.Data
                                                 av[a_fixed & off], strict=True)])
 
     # weights: x = z + c w on the movable elements (c scaled by the system's mean |z|)
+    always = names.isin(set(additive)).to_numpy()
     nonpos = np.zeros(len(ser), bool)
-    np.logical_or.at(nonpos, sid, (z <= 0) & free_e)
+    np.logical_or.at(nonpos, sid, (z <= 0) & free_e & ~always[sid])
     if method == "proportional_denton" and nonpos.any() and on_nonpositive == "error":
-        raise _nonpositive_error(lay, z, (z <= 0) & free_e)
-    additive_e = nonpos[sid] if method == "proportional_denton" else np.zeros(n, bool)
+        raise _nonpositive_error(lay, z, (z <= 0) & free_e & ~always[sid])
+    additive_e = (nonpos | always)[sid] if method == "proportional_denton" else np.zeros(n, bool)
     count = np.bincount(sid, minlength=len(ser))
     series_mean = np.bincount(sid, weights=np.abs(z), minlength=len(ser)) / count
     sys_scale = np.bincount(sys_e, weights=np.abs(z) * free_e, minlength=nsys) / np.maximum(
