@@ -38,13 +38,6 @@ def run_sql(con: duckdb.DuckDBPyConnection, name: str, **params: object) -> None
     con.execute(text, used or None)
 
 
-def query_df(con: duckdb.DuckDBPyConnection, name: str, **params: object) -> pd.DataFrame:
-    """Run a statement file and return the result as a pandas frame."""
-    text = sql_text(name)
-    used = {k: v for k, v in params.items() if f"${k}" in text}
-    return con.execute(text, used or None).df()
-
-
 def query_arrow(con: duckdb.DuckDBPyConnection, name: str, **params: object) -> pa.Table:
     """Run a statement file and return the result as a fully read Arrow table."""
     text = sql_text(name)

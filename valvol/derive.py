@@ -24,7 +24,7 @@ import pandas as pd
 
 from valvol import db
 from valvol.config import Config
-from valvol.frames import LEVEL_COLUMNS
+from valvol.frames import LEVEL_COLUMNS, empty_levels
 
 log = logging.getLogger("valvol")
 
@@ -110,7 +110,7 @@ def derive_volumes(con: duckdb.DuckDBPyConnection, config: Config) -> None:
             _insert_levels(con, moved, "rereferenced")
             given = pd.concat([given[~given["economy"].isin(moved["economy"].unique())], moved])
     pyp_economies = levels.loc[levels["price_basis"] == "previous_year", "economy"].unique()
-    computed = pd.DataFrame(columns=LEVEL_COLUMNS)
+    computed = empty_levels()
     if config.volumes.index == "fisher":
         _require_given_volumes(current, given, h)
         pyp_economies = []  # Fisher chains need both years' prices: only given volumes are used

@@ -6,7 +6,7 @@ A user never sees a traceback for bad data: the CLI maps `InputError` and
 
 from __future__ import annotations
 
-from collections.abc import Iterable, Sequence
+from collections.abc import Iterable
 from dataclasses import asdict, dataclass
 
 
@@ -85,9 +85,3 @@ class PublishError(ValvolError):
 
 def _problem_key(p: Problem) -> tuple:
     return (p.file, -1 if p.row is None else p.row, p.economy, p.item, p.price_basis, p.period, p.reason)
-
-
-def raise_if_any(problems: Sequence[Problem]) -> None:
-    """Raise `InputError` when ``problems`` is not empty."""
-    if problems:
-        raise InputError(problems)
