@@ -24,7 +24,7 @@ import pandas as pd
 
 from valvol.errors import ConfigError, InputError
 from valvol.hierarchy import Hierarchy
-from valvol.methods.chainlink import (
+from valvol.methods.panel import (
     Lookup,
     PanelCodes,
     category_strings,
