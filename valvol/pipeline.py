@@ -164,8 +164,8 @@ def validate(accounts_dir: str | Path, work: str | Path, config: Config | None =
     ok.to_parquet(work / VALIDATED_FILE, index=False)
     indexes.to_parquet(work / INDEXES_FILE, index=False)
     economies = sorted(ok["economy"].unique())
-    log.info("validated %d rows: %d economies, %d series", len(ok), len(economies),
-             len(ok.drop_duplicates(["economy", "item", "price_basis", "frequency"])))
+    log.info("validated %d rows: %d economies, %d accounts series, %d price-index rows", len(ok) + len(indexes),
+             len(economies), len(ok.drop_duplicates(["economy", "item", "price_basis", "frequency"])), len(indexes))
     _timed(work, "validate", started)
     return economies
 

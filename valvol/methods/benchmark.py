@@ -184,6 +184,28 @@ def series_codes(frame: pd.DataFrame, by: list[str]) -> np.ndarray:
     return frame.groupby(by, sort=True).ngroup().to_numpy()
 
 
+def sorted_quarters(frame: pd.DataFrame, key: list[str]):
+    """Quarterly rows sorted by series and period, with the arrays the solvers index by.
+
+    Returns ``(frame, sid, year, quarter, t, new, step)``: the sorted frame (float values),
+    its series codes, years, quarters, running quarter numbers ``t = 4 year + quarter - 1``,
+    the first row of each series (``new``) and the step in ``t`` from the row before.
+    """
+    code = series_codes(frame, key)
+    year = frame["year"].to_numpy(dtype="int64")
+    quarter = frame["quarter"].to_numpy(dtype="int64")
+    order = np.lexsort((quarter, year, code))
+    out = frame.take(order).reset_index(drop=True)
+    sid, year, quarter = code[order], year[order], quarter[order]
+    out["year"], out["quarter"] = year, quarter
+    out["value"] = out["value"].astype("float64")
+    t = year * 4 + quarter - 1
+    n = len(out)
+    new = np.r_[True, sid[1:] != sid[:-1]] if n else np.zeros(0, bool)
+    step = np.r_[1, np.diff(t)] if n else np.zeros(0, "int64")
+    return out, sid, year, quarter, t, new, step
+
+
 def _arrange(indicator: pd.DataFrame, benchmarks: pd.DataFrame, by: list[str], stock_flow: str) -> _Panel:
     """Validate the inputs and stack them (every problem found is raised at once)."""
     check_choice("stock_flow", stock_flow, tuple(STOCK_FLOW))
@@ -191,18 +213,8 @@ def _arrange(indicator: pd.DataFrame, benchmarks: pd.DataFrame, by: list[str], s
     require_columns(benchmarks, by + ["year", "value"], "benchmarks")
     if indicator[by].isna().any(axis=None) or benchmarks[by].isna().any(axis=None):
         raise InputError([Problem(reason=f"missing values in the key column(s) {', '.join(by)}")])
-    code = series_codes(indicator, by)
-    year = indicator["year"].to_numpy(dtype="int64")
-    quarter = indicator["quarter"].to_numpy(dtype="int64")
-    order = np.lexsort((quarter, year, code))
-    ind = indicator.take(order).reset_index(drop=True)
-    sid, year, quarter = code[order], year[order], quarter[order]
-    ind["year"], ind["quarter"] = year, quarter
-    ind["value"] = ind["value"].astype("float64")
-    t = year * 4 + quarter - 1
+    ind, sid, year, quarter, t, new, step = sorted_quarters(indicator, by)
     n = len(ind)
-    new = np.r_[True, sid[1:] != sid[:-1]] if n else np.zeros(0, bool)
-    step = np.r_[1, np.diff(t)] if n else np.zeros(0, "int64")
     problems: list[Problem] = []
     for mask, reason in (
         ((quarter < 1) | (quarter > 4), "quarter must be 1..4"),

@@ -42,6 +42,7 @@ from valvol.methods.benchmark import (
     series_codes,
     series_problem,
     solve_kkt,
+    sorted_quarters,
 )
 
 RECONCILE_METHODS = ("proportional_denton", "wls")
@@ -94,18 +95,8 @@ class _Layout:
 
 def _arrange(components: pd.DataFrame, by: list[str]) -> _Layout:
     key = by + ["series"]
-    sid = series_codes(components, key)
-    year = components["year"].to_numpy(dtype="int64")
-    quarter = components["quarter"].to_numpy(dtype="int64")
-    order = np.lexsort((quarter, year, sid))
-    frame = components.take(order).reset_index(drop=True)
-    sid, year, quarter = sid[order], year[order], quarter[order]
-    frame["year"], frame["quarter"] = year, quarter
-    frame["value"] = frame["value"].astype("float64")
-    t = year * 4 + quarter - 1
+    frame, sid, year, quarter, t, new, step = sorted_quarters(components, key)
     n = len(frame)
-    new = np.r_[True, sid[1:] != sid[:-1]]
-    step = np.r_[1, np.diff(t)]
     problems: list[Problem] = []
     for mask, reason in (
         ((quarter < 1) | (quarter > 4), "quarter must be 1..4"),
