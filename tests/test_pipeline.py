@@ -93,3 +93,32 @@ def test_fisher_index_needs_given_volumes(accounts, tmp_path):
     got = {(p.economy, p.item, p.price_basis) for p in err.value.problems}
     assert got == {("XQ", "P6", "chain_linked"), ("XQ", "B1GQ", "chain_linked")}  # B1GQ derived from P6
     assert all("fisher" in p.reason for p in err.value.problems)
+
+
+def test_series_starting_later_and_components_not_reported(demo_dir, tmp_path):
+    # input contract: a series may start later than others (it counts as zero before), and an
+    # economy need not report every declared component (here no valuables P53 before 2015 and
+    # no discrepancy YA1 at all)
+    acc = pd.read_csv(demo_dir / "accounts.csv")
+    early = (acc["item"] == "P53") & (acc["period"] < "2015")
+    moved = acc[early].set_index(["period", "price_basis"])["value"]
+    p52 = (acc["item"] == "P52") & (acc["period"] < "2015")
+    acc.loc[p52, "value"] = [round(v + moved[(p, b)], 1) for v, p, b in
+                             zip(acc.loc[p52, "value"], acc.loc[p52, "period"], acc.loc[p52, "price_basis"],
+                                 strict=True)]
+    ya1 = acc[acc["item"] == "YA1"].set_index(["period", "price_basis"])["value"]
+    gdp = (acc["item"] == "B1GQ") & acc["price_basis"].isin(["current", "previous_year"])
+    acc.loc[gdp, "value"] = [round(v - ya1[(p, b)], 1) for v, p, b in zip(
+        acc.loc[gdp, "value"], acc.loc[gdp, "period"], acc.loc[gdp, "price_basis"], strict=True)]
+    # GDP without the discrepancy; its chained volume is then chain-linked here
+    acc = acc[~early & (acc["item"] != "YA1") & ~((acc["item"] == "B1GQ") & (acc["price_basis"] == "chain_linked"))]
+    folder = tmp_path / "acc"
+    folder.mkdir()
+    acc.to_csv(folder / "accounts.csv", index=False)
+    (folder / "valvol.toml").write_bytes((demo_dir / "valvol.toml").read_bytes())
+    out = tmp_path / "out"
+    pipeline.rebuild(folder, out, charts=False)
+    vol = pd.read_parquet(out / "volume_contributions.parquet")
+    assert vol["residual_pp"].abs().max() < 0.01  # rounding of the published volumes only
+    levels = pd.read_parquet(out / "levels.parquet")
+    assert {"B1GQ_RESIDUAL", "P5_RESIDUAL"} <= set(levels["item"])  # YA1 not expected for B1GQ

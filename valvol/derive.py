@@ -133,7 +133,7 @@ def derive_volumes(con: duckdb.DuckDBPyConnection, config: Config) -> None:
             cmp = chainlink.compare_chain_linked(given, both)
             _insert_checks(con, _chain_comparison_checks(cmp))
     volumes = pd.concat([given, computed]).drop_duplicates(["economy", "item", "frequency", "year", "quarter"])
-    residual = chainlink.nonadditivity_residual(volumes, h)
+    residual = chainlink.nonadditivity_residual(volumes, h, reported=levels[["economy", "item"]].drop_duplicates())
     _insert_levels(con, residual, "residual")
     _insert_checks(
         con,
@@ -215,7 +215,7 @@ def derive_contributions(con: duckdb.DuckDBPyConnection, config: Config) -> None
     from valvol.methods import contributions, deflator_contributions
 
     levels = _levels(con)
-    levels = levels[~levels["item"].str.endswith("_RESIDUAL")]
+    levels = zero_fill_components(levels[~levels["item"].str.endswith("_RESIDUAL")], config.hierarchy)
     vol = contributions.volume_contributions(
         levels, hierarchy=config.hierarchy, convention=config.contributions.convention,
         annual_rate=config.levels_at_annual_rate,
@@ -235,6 +235,26 @@ def derive_contributions(con: duckdb.DuckDBPyConnection, config: Config) -> None
     db.register(con, "contribution_rows", income)
     db.run_sql(con, "int_income_contributions")
     con.unregister("contribution_rows")
+
+
+def zero_fill_components(levels: pd.DataFrame, hierarchy) -> pd.DataFrame:
+    """Zeros for a component's periods before it starts (or after it ends), where its aggregate has values.
+
+    The aggregates are formed with a missing component counting as zero in that period
+    (``sql/int_aggregate.sql``); the decompositions see the same zeros, so that a series
+    starting later than others contributes its level change from zero, and the aggregate's
+    contributions still add up. Only series the economy reports are filled.
+    """
+    edges = pd.DataFrame(hierarchy.edges(), columns=["aggregate", "item", "sign"])[["aggregate", "item"]]
+    series = ["economy", "item", "price_basis", "frequency"]
+    at = ["economy", "price_basis", "frequency", "year", "quarter", "period"]
+    aggregate_rows = levels.rename(columns={"item": "aggregate"}).merge(edges, on="aggregate")[at + ["item"]]
+    reported = levels[series].drop_duplicates()
+    wanted = aggregate_rows.merge(reported, on=series).drop_duplicates()
+    have = levels[series + ["year", "quarter"]]
+    missing = wanted.merge(have, on=series + ["year", "quarter"], how="left", indicator=True)
+    missing = missing[missing["_merge"] == "left_only"].drop(columns="_merge").assign(value=0.0)
+    return pd.concat([levels, missing[levels.columns]], ignore_index=True) if len(missing) else levels
 
 
 def derive_price_gaps(con: duckdb.DuckDBPyConnection, config: Config, indexes: pd.DataFrame | None = None) -> None:

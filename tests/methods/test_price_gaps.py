@@ -301,3 +301,23 @@ def test_cpi_frame_errors():
         price_gaps(lv, hierarchy=HIER, cpi=dup)
     with pytest.raises(InputError, match="lacks column"):
         price_gaps(lv, hierarchy=HIER, cpi=cpi_monthly(np.full(12, 100.0)).drop(columns="price_basis"))
+
+
+def test_final_demand_numeraire_when_the_first_year_is_the_reference():
+    # the first year of accounts has no previous-year prices: the domestic final demand
+    # deflator's chain starts there at 1 (METHODS.md section 5; first-year convention of 2.2)
+    prices, quantities = economy_data(3)
+    lv = make_panel(prices, quantities, SPEC, ref_year=2000)
+    lv = lv[~((lv["price_basis"] == "previous_year") & (lv["year"] == 2000))]
+    out = price_gaps(lv, hierarchy=HIER, numeraire="domestic_final_demand", reference_year=2000)
+    gain = out.query("measure == 'trading_gain' and frequency == 'A'").set_index("year")["value"]
+    assert abs(gain.loc[2000]) < 1e-9
+    a = lv[(lv["frequency"] == "A")].pivot_table(index=["year", "item"], columns="price_basis", values="value")
+    dfd = (a.loc[(2001, "P3"), "current"] + a.loc[(2001, "P51G"), "current"]) / (
+        a.loc[(2001, "P3"), "previous_year"] + a.loc[(2001, "P51G"), "previous_year"])
+    px = (a.loc[(2001, "P6"), "current"] / a.loc[(2001, "P6"), "chain_linked"]) / (
+        a.loc[(2000, "P6"), "current"] / a.loc[(2000, "P6"), "chain_linked"])
+    pm = (a.loc[(2001, "P7"), "current"] / a.loc[(2001, "P7"), "chain_linked"]) / (
+        a.loc[(2000, "P7"), "current"] / a.loc[(2000, "P7"), "chain_linked"])
+    x, m = a.loc[(2001, "P6"), "current"], a.loc[(2001, "P7"), "current"]
+    assert abs(gain.loc[2001] - ((x - m) / dfd - (x / px - m / pm))) < 1e-6 * abs(x)

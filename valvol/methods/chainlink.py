@@ -399,14 +399,26 @@ def rereference(chained: pd.DataFrame, current: pd.DataFrame, reference_year: in
     return sort_levels(to_levels(out, "value"))
 
 
-def nonadditivity_residual(chained: pd.DataFrame, hierarchy: Hierarchy) -> pd.DataFrame:
+def nonadditivity_residual(chained: pd.DataFrame, hierarchy: Hierarchy,
+                           reported: pd.DataFrame | None = None) -> pd.DataFrame:
     """Aggregate minus the signed sum of its chain-linked components.
+
+    Parameters
+    ----------
+    chained
+        Chain-linked levels of aggregates and components.
+    hierarchy
+        The signed aggregates.
+    reported
+        ``economy, item`` pairs an economy reports (at any price basis). A declared
+        component an economy never reports (e.g. no valuables) is not expected; when None,
+        every declared component is.
 
     Returns
     -------
     DataFrame
         Levels panel, item ``<AGG>_RESIDUAL``, price basis ``chain_linked``: one row per
-        aggregate and period where the aggregate and all its direct components have
+        aggregate and period where the aggregate and all its expected direct components have
         chain-linked values.
 
     Notes
@@ -420,12 +432,15 @@ def nonadditivity_residual(chained: pd.DataFrame, hierarchy: Hierarchy) -> pd.Da
     """
     ch = levels_wide(chained, {"chain_linked": "v"})
     edges = pd.DataFrame(hierarchy.edges(), columns=["aggregate", "item", "sign"])
-    n_comp = edges.groupby("aggregate", as_index=False)["item"].size().rename(columns={"size": "n_comp"})
+    if reported is None:  # every declared component is expected
+        reported = ch[["economy"]].drop_duplicates().merge(edges[["item"]], how="cross")
+    n_comp = (reported[["economy", "item"]].drop_duplicates().merge(edges, on="item")
+              .groupby(["economy", "aggregate"], as_index=False)["item"].size().rename(columns={"size": "n_comp"}))
     comp = ch.merge(edges, on="item")
     comp["sv"] = comp["sign"] * comp["v"]
     g = comp.groupby(["economy", "aggregate", "frequency", "year", "quarter"], as_index=False).agg(
         total=("sv", "sum"), n=("sv", "size"))
-    g = g.merge(n_comp, on="aggregate")
+    g = g.merge(n_comp, on=["economy", "aggregate"])
     g = g[g["n"] == g["n_comp"]]
     agg = ch.rename(columns={"item": "aggregate"})
     g = g.merge(agg, on=["economy", "aggregate", "frequency", "year", "quarter"])

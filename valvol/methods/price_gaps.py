@@ -234,8 +234,11 @@ def _require_reference(t: pd.DataFrame, refs: pd.DataFrame) -> None:
 
 def _final_demand_deflator(wide: pd.DataFrame, hierarchy: Hierarchy, refs: pd.DataFrame) -> pd.DataFrame:
     """Deflator ratio of P3 + P51G chained by annual overlap, 1 in the reference year."""
-    s = _series(wide, hierarchy, None, DOMESTIC_FINAL_DEMAND_PARTS).dropna(subset=["c", "k"])
+    # the chain starts in each economy's first year with current prices (P = 1 there, no
+    # previous-year prices needed); its quarters are valued at that year's average prices
+    s = _series(wide, hierarchy, None, DOMESTIC_FINAL_DEMAND_PARTS).dropna(subset=["c"])
     ann = s.loc[s["frequency"].eq("A")].sort_values(["economy", "year"], kind="mergesort")
+    ann = ann.loc[ann["k"].notna() | ~ann.duplicated("economy")]
     step = ann.groupby("economy")["year"].diff()
     if (step > 1).any():
         bad = ann.loc[step > 1]
@@ -248,7 +251,7 @@ def _final_demand_deflator(wide: pd.DataFrame, hierarchy: Hierarchy, refs: pd.Da
     ann["p"] = _rebase(ann, ["p"], refs)["p"]
     q = s.loc[s["frequency"].eq("Q")].merge(
         ann[["economy", "year", "c", "k", "p"]].rename(columns={"c": "ca", "k": "ka", "p": "pa"}), on=["economy", "year"])
-    q = q.assign(p=(q["c"] / q["k"]) * (q["ka"] / q["ca"]) * q["pa"])
+    q = q.assign(p=((q["c"] / q["k"]) * (q["ka"] / q["ca"])).fillna(1.0) * q["pa"])
     return pd.concat([ann[_KEYS + ["p"]], q[_KEYS + ["p"]]], ignore_index=True)
 
 
