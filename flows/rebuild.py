@@ -13,19 +13,19 @@ flow at once with the latest vintage (``force`` rebuilds anyway).
 
 from __future__ import annotations
 
-from pathlib import Path
-
 from prefect import flow, task
 from prefect.cache_policies import NO_CACHE
 from prefect.states import Completed, Failed
 from prefect.task_runners import ThreadPoolTaskRunner
 
 from valvol import pipeline
-from valvol.config import load_config
 from valvol.errors import InputError
-from valvol.io import publish as pub
 
 IO_RETRIES = {"retries": 2, "retry_delay_seconds": [1, 5]}
+
+
+def _problems(err: InputError) -> list[dict]:
+    return [p.as_dict() for p in err.problems]
 
 
 @task(name="load accounts", cache_policy=NO_CACHE, **IO_RETRIES)
@@ -38,20 +38,28 @@ def validate_task(accounts_dir: str, work: str) -> dict:
     try:
         return {"economies": pipeline.validate(accounts_dir, work), "problems": []}
     except InputError as err:
-        return {"economies": [], "problems": [p.as_dict() for p in err.problems]}
+        return {"economies": [], "problems": _problems(err)}
 
 
 @task(name="reconcile accounts", cache_policy=NO_CACHE)
-def reconcile_task(accounts_dir: str, work: str) -> str:
-    return str(pipeline.reconcile(accounts_dir, work))
+def reconcile_task(accounts_dir: str, work: str) -> list[dict]:
+    try:
+        pipeline.reconcile(accounts_dir, work)
+    except InputError as err:
+        return _problems(err)
+    return []
 
 
 @task(name="derive economy", cache_policy=NO_CACHE, task_run_name="derive {economy}")
-def derive_task(accounts_dir: str, work: str, economy: str) -> str:
-    return str(pipeline.derive_economy(accounts_dir, work, economy))
+def derive_task(accounts_dir: str, work: str, economy: str) -> list[dict]:
+    try:
+        pipeline.derive_economy(accounts_dir, work, economy)
+    except InputError as err:
+        return _problems(err)
+    return []
 
 
-@task(name="write tables", cache_policy=NO_CACHE, **IO_RETRIES)
+@task(name="write tables", cache_policy=NO_CACHE)
 def write_task(accounts_dir: str, work: str, out_dir: str, label: str | None, charts: bool,
                chart_economies: list[str] | None) -> str:
     return str(pipeline.write(accounts_dir, work, out_dir=out_dir, label=label, charts=charts,
@@ -61,6 +69,10 @@ def write_task(accounts_dir: str, work: str, out_dir: str, label: str | None, ch
 @task(name="publish vintage", cache_policy=NO_CACHE)
 def publish_task(work: str, out_dir: str) -> str:
     return str(pipeline.publish(work, out_dir))
+
+
+def _rejected(problems: list[dict]):
+    return Failed(message=f"{len(problems)} problem(s) in the accounts", data=problems)
 
 
 @flow(name="valvol-rebuild", validate_parameters=False, task_runner=ThreadPoolTaskRunner(max_workers=2))
@@ -73,29 +85,24 @@ def rebuild_flow(
     chart_economies: list[str] | None = None,
 ):
     """Rebuild every table of ``out_dir`` from the accounts folder; publish atomically."""
-    out = Path(out_dir)
-    with pub.output_lock(out):
-        same = None if force else pipeline.unchanged_since_latest(accounts_dir, out, load_config(accounts_dir))
-        if same is not None:
-            return Completed(message=f"unchanged since vintage {same.name}", data=str(same))
-        work = pub.new_staging_dir(out)
-        try:
-            load_task(accounts_dir, str(work))
-            checked = validate_task(accounts_dir, str(work))
-            if checked["problems"]:
-                pub.discard_staging(work)
-                return Failed(message=f"{len(checked['problems'])} problem(s) in the accounts",
-                              data=checked["problems"])
-            reconcile_task(accounts_dir, str(work))
-            futures = [derive_task.submit(accounts_dir, str(work), e) for e in checked["economies"]]
-            for future in futures:
-                future.result()
-            write_task(accounts_dir, str(work), out_dir, label, charts, chart_economies)
-            target = publish_task(str(work), out_dir)
-        except BaseException:
-            pub.discard_staging(work)
-            raise
-    return target
+    options = pipeline.rebuild_options(label, charts, chart_economies)
+    with pipeline.session(accounts_dir, out_dir, force=force, options=options) as run:
+        if run.unchanged is not None:
+            return Completed(message=f"unchanged since vintage {run.unchanged.name}", data=str(run.unchanged))
+        work = str(run.work)
+        load_task(accounts_dir, work)
+        checked = validate_task(accounts_dir, work)
+        if checked["problems"]:
+            return _rejected(checked["problems"])
+        problems = reconcile_task(accounts_dir, work)
+        if problems:
+            return _rejected(problems)
+        futures = [derive_task.submit(accounts_dir, work, e) for e in checked["economies"]]
+        problems = [p for future in futures for p in future.result()]  # every economy's problems
+        if problems:
+            return _rejected(problems)
+        write_task(accounts_dir, work, out_dir, label, charts, chart_economies)
+        return publish_task(work, out_dir)
 
 
 def dask_runner(address: str | None = None, n_workers: int = 2):

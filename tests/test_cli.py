@@ -38,3 +38,13 @@ def test_rebuild_without_flow(demo_dir, tmp_path, capsys):
 
 def test_missing_folder_exit_2(tmp_path, capsys):
     assert main(["-q", "rebuild", str(tmp_path / "nope"), "--out", str(tmp_path / "o"), "--no-flow"]) == 2
+
+
+def test_flow_path_checks_label_and_lock_before_starting_prefect(demo_dir, tmp_path, capsys):
+    from valvol.io.publish import output_lock
+
+    assert main(["-q", "rebuild", str(demo_dir), "--out", str(tmp_path / "o"), "--label", "bad label"]) == 2
+    assert "vintage label" in capsys.readouterr().err
+    with output_lock(tmp_path / "busy"):
+        assert main(["-q", "rebuild", str(demo_dir), "--out", str(tmp_path / "busy")]) == 3
+    assert "another rebuild is writing" in capsys.readouterr().err

@@ -50,3 +50,20 @@ def test_invalid_toml_names_file(tmp_path):
     (tmp_path / "valvol.toml").write_text("reference_year = \n")
     with pytest.raises(ConfigError, match="valvol.toml: not valid TOML"):
         load_config(tmp_path)
+
+
+@pytest.mark.parametrize(
+    "raw, fragment",
+    [
+        ({"benchmark": {"items": ["P5IG"]}}, "unknown item code(s) P5IG"),
+        ({"benchmark": {"items": ["P51G"], "price_bases": ["curent"]}}, "price_bases must be among"),
+        ({"reconcile": {"aggregate": "P6"}}, "not declared in [aggregates]"),
+        ({"benchmark": {"items": ["P51G"], "benchmarks": "a/x.csv"}, "reconcile": {"aggregate": "B1GQ",
+                                                                                  "benchmarks": "b/y.csv"}},
+         "different benchmarks files"),
+    ],
+)
+def test_bad_adjustment_settings(raw, fragment):
+    with pytest.raises(ConfigError) as err:
+        config_from_mapping(raw, source="v.toml")
+    assert fragment in str(err.value)

@@ -132,3 +132,33 @@ def test_demo_flash_estimate_walkthrough(demo_dir, tmp_path, capsys):
     assert p53.loc["2025-Q1", "before"] > 0 > p53.loc["2025-Q4", "after"]
     steps = p53.loc[p53.index.str.startswith("2025"), "adjustment"].diff().dropna()
     assert (steps < 0).all()
+
+
+def test_benchmark_file_changes_are_not_unchanged(demo_dir, tmp_path):
+    import shutil
+
+    folder = tmp_path / "fe"
+    shutil.copytree(demo_dir / "first_estimate", folder)
+    out = tmp_path / "out"
+    pipeline.rebuild(folder, out, charts=False)
+    bench = folder / "annual" / "benchmarks.csv"
+    bench.write_text(bench.read_text().replace("current,", "current,1", 1))  # a changed benchmark
+    with pytest.raises(InputError, match="gap"):  # rebuilt (and refused: inconsistent), not skipped
+        pipeline.rebuild(folder, out, charts=False)
+
+
+def test_benchmarking_a_component_of_a_given_aggregate_is_refused(demo_dir, tmp_path):
+    # P5 is given; benchmarking P51G alone would publish P5 != P51G + P52 + P53
+    acc = pd.read_csv(demo_dir / "accounts.csv")
+    p51g = acc[(acc["item"] == "P51G") & (acc["price_basis"] == "current")]
+    years = p51g.assign(period=p51g["period"].str[:4]).groupby(["economy", "item", "price_basis", "period"],
+                                                               as_index=False)["value"].sum()
+    years = years.assign(value=(years["value"] * 1.01).round(1), adjustment="S", unit="tessel million")
+    folder = tmp_path / "bm"
+    folder.mkdir()
+    pd.concat([acc, years[acc.columns]]).to_csv(folder / "accounts.csv", index=False)
+    (folder / "valvol.toml").write_text((demo_dir / "valvol.toml").read_text() + '\n[benchmark]\nitems = ["P51G"]\n')
+    with pytest.raises(InputError) as err:
+        pipeline.rebuild(folder, tmp_path / "out", charts=False)
+    assert any(p.item == "P5" and "identity_current fails" in p.reason for p in err.value.problems)
+    assert not (tmp_path / "out" / "latest").exists()

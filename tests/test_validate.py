@@ -157,5 +157,11 @@ def test_price_index_problems_are_located(accounts, tmp_path):
     assert (4, "monthly periods (YYYY-MM) are for price indexes only") in got
     assert (5, "a price index must be positive") in got
     assert (7, "price index of an economy that has no accounts") in got
-    # rows with problems are left out of the contiguity check, so the gap spans them
-    assert any(p.period == "2020-02 to 2020-06" for p in problems_of(folder, tmp_path))
+    # every row with a valid period counts for contiguity: only the truly missing months are named
+    assert any(p.period == "2020-05 to 2020-06" for p in problems_of(folder, tmp_path))
+
+
+def test_header_only_file(accounts, tmp_path):
+    folder = accounts("economy,period,item,price_basis,value\n")
+    (p,) = problems_of(folder, tmp_path)
+    assert "no data rows" in p.reason

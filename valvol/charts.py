@@ -18,6 +18,7 @@ from pathlib import Path
 import matplotlib
 
 matplotlib.use("Agg")  # no screen: files only
+matplotlib.rcParams["svg.hashsalt"] = "valvol"  # identical SVG files on rerun
 
 import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402

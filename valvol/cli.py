@@ -43,7 +43,7 @@ def _parser() -> argparse.ArgumentParser:
                    help="run the per-economy tasks on a Dask cluster: a scheduler ADDRESS, or a local "
                         "cluster when no address is given")
 
-    c = sub.add_parser("check", help="validate an accounts folder only; write nothing")
+    c = sub.add_parser("check", help="apply every rule a rebuild applies to an accounts folder; publish nothing")
     c.add_argument("accounts_dir", type=Path)
 
     v = sub.add_parser("vintages", help="list the vintages of an output root")
@@ -119,7 +119,13 @@ def _run_flow(accounts: Path, out: Path, dask: str | None, options: dict):
     from rich.console import Console
 
     from valvol import pipeline, prefect_env
+    from valvol.config import load_config
+    from valvol.io.publish import output_lock
 
+    load_config(accounts)  # a bad config or label, or a busy output folder, stops before Prefect starts
+    pipeline.rebuild_options(options["label"], options["charts"], options["chart_economies"])
+    with output_lock(out):
+        pass
     prefect_env.configure(out)
     from valvol.flows.rebuild import dask_runner, rebuild_flow
 

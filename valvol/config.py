@@ -211,6 +211,7 @@ def config_from_mapping(raw: dict[str, Any], *, source: str = "") -> Config:
     except ConfigError as exc:
         raise ConfigError(str(exc), file=source) from None
     sections = {name: _section(raw.get(name, {}), cls, name, source) for name, cls in _SECTIONS.items()}
+    _check_adjustments(sections["benchmark"], sections["reconcile"], hierarchy, tuple(indexes), source)
     return Config(
         reference_year=ref,
         levels_at_annual_rate=annual_rate,
@@ -219,6 +220,28 @@ def config_from_mapping(raw: dict[str, Any], *, source: str = "") -> Config:
         source=source,
         **sections,
     )
+
+
+def _check_adjustments(b: BenchmarkConfig, r: ReconcileConfig, hierarchy: Hierarchy,
+                       indexes: tuple[str, ...], source: str) -> None:
+    """Codes and price bases of [benchmark] and [reconcile] must be ones valvol can adjust."""
+    allowed = hierarchy.allowed_items() - set(indexes)
+    bases = ("current", "previous_year")
+    codes = {"[benchmark] items": b.items, "[reconcile] components": tuple(c.lstrip("+-") for c in r.components),
+             "[reconcile] fixed": r.fixed,
+             "[reconcile] aggregate / discrepancy": tuple(c for c in (r.aggregate, r.discrepancy) if c)}
+    for where, items in codes.items():
+        unknown = sorted(set(items) - allowed)
+        if unknown:
+            raise ConfigError(f"{where}: unknown item code(s) {', '.join(unknown)}", file=source)
+    for where, chosen in (("[benchmark]", b.price_bases), ("[reconcile]", r.price_bases)):
+        if set(chosen) - set(bases):
+            raise ConfigError(f"{where} price_bases must be among {', '.join(bases)}, got {list(chosen)}", file=source)
+    if b.benchmarks and r.benchmarks and b.benchmarks != r.benchmarks:
+        raise ConfigError("[benchmark] and [reconcile] name different benchmarks files; use one", file=source)
+    if r.aggregate and not r.components and r.aggregate not in hierarchy.aggregates:
+        raise ConfigError(f"[reconcile] aggregate {r.aggregate} is not declared in [aggregates]; declare it or "
+                          "list its components", file=source)
 
 
 def _section(raw: Any, cls: type, name: str, source: str) -> Any:

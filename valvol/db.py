@@ -25,10 +25,7 @@ def sql_text(name: str) -> str:
 
 def connect(path: str | Path | None = None, *, threads: int | None = None) -> duckdb.DuckDBPyConnection:
     """Open (or create) the embedded database file; in memory when ``path`` is None."""
-    con = duckdb.connect(str(path) if path else ":memory:")
-    if threads:
-        con.execute("SET threads TO " + str(int(threads)))
-    return con
+    return duckdb.connect(str(path) if path else ":memory:", config={"threads": int(threads)} if threads else {})
 
 
 def run_sql(con: duckdb.DuckDBPyConnection, name: str, **params: object) -> None:
@@ -36,6 +33,13 @@ def run_sql(con: duckdb.DuckDBPyConnection, name: str, **params: object) -> None
     text = sql_text(name)
     used = {k: v for k, v in params.items() if f"${k}" in text}
     con.execute(text, used or None)
+
+
+def query_df(con: duckdb.DuckDBPyConnection, name: str, **params: object) -> pd.DataFrame:
+    """Run a statement file and return the result as a pandas frame."""
+    text = sql_text(name)
+    used = {k: v for k, v in params.items() if f"${k}" in text}
+    return con.execute(text, used or None).df()
 
 
 def query_arrow(con: duckdb.DuckDBPyConnection, name: str, **params: object) -> pa.Table:

@@ -34,9 +34,7 @@ CHAIN_DIFF_WARN_PCT = 0.1
 
 
 def _levels(con: duckdb.DuckDBPyConnection) -> pd.DataFrame:
-    return con.execute(
-        "SELECT economy, item, price_basis, frequency, year, quarter, period, value FROM levels"
-    ).df()
+    return db.query_df(con, "int_levels_read")
 
 
 def _insert_levels(con: duckdb.DuckDBPyConnection, rows: pd.DataFrame, origin: str) -> None:
@@ -80,6 +78,24 @@ def derive_all(
     db.run_sql(con, "int_checks_deflator_jump", jump_pct=config.checks.deflator_jump_pct)
     derive_contributions(con, config)
     derive_price_gaps(con, config, indexes)
+    reject_failed_checks(con)
+
+
+def reject_failed_checks(con: duckdb.DuckDBPyConnection) -> None:
+    """A check that fails (e.g. an identity broken by benchmarking one component of a given
+    aggregate) stops the rebuild with located problems: nothing inconsistent is published."""
+    from valvol.errors import InputError, Problem
+
+    failed = db.query_df(con, "int_checks_failed").itertuples(index=False, name=None)
+    failed = list(failed)
+    if failed:
+        raise InputError([
+            Problem(economy=e, item=i, period=p,
+                    reason=f"check {c} fails: value {v:.6g} beyond tolerance {t:.6g}"
+                    + (" (after benchmarking or reconciliation: adjust the aggregate's other components "
+                       "too, or let valvol derive the aggregate)" if c.startswith("identity_") else ""))
+            for e, p, c, i, v, t in failed
+        ])
 
 
 def check_levels(con: duckdb.DuckDBPyConnection) -> None:
@@ -211,30 +227,43 @@ def _chain_comparison_checks(cmp: pd.DataFrame) -> pd.DataFrame:
 
 
 def derive_contributions(con: duckdb.DuckDBPyConnection, config: Config) -> None:
-    """Contributions to volume growth and to deflator growth of every declared aggregate."""
+    """Contributions to volume growth and to deflator growth of every declared aggregate.
+
+    ``two_step`` needs previous-year prices and ``prior_year_weights`` and ``fisher`` need
+    chain-linked volumes: without them an economy gets no contributions (and a log line),
+    never figures built from current prices alone.
+    """
     from valvol.methods import contributions, deflator_contributions
 
     levels = _levels(con)
     levels = zero_fill_components(levels[~levels["item"].str.endswith("_RESIDUAL")], config.hierarchy)
-    vol = contributions.volume_contributions(
-        levels, hierarchy=config.hierarchy, convention=config.contributions.convention,
-        annual_rate=config.levels_at_annual_rate,
-    )
-    db.register(con, "contribution_rows", vol)
-    db.run_sql(con, "int_volume_contributions")
-    con.unregister("contribution_rows")
-    defl = deflator_contributions.deflator_contributions(
-        levels, hierarchy=config.hierarchy,
-        # the UK agency's weighting is a volume convention; prices then follow the exact two-step links
-        convention="fisher" if config.contributions.convention == "fisher" else "two_step",
-    )
-    db.register(con, "contribution_rows", defl)
-    db.run_sql(con, "int_deflator_contributions")
-    con.unregister("contribution_rows")
-    income = deflator_contributions.income_side_contributions(levels)
-    db.register(con, "contribution_rows", income)
-    db.run_sql(con, "int_income_contributions")
-    con.unregister("contribution_rows")
+    convention = config.contributions.convention
+    # the UK agency's weighting is a volume convention; prices then follow the exact two-step links
+    price_convention = "fisher" if convention == "fisher" else "two_step"
+    need = {"two_step": "previous_year", "prior_year_weights": "chain_linked", "fisher": "chain_linked"}
+    tables = {
+        "int_volume_contributions": (need[convention], lambda lv: contributions.volume_contributions(
+            lv, hierarchy=config.hierarchy, convention=convention, annual_rate=config.levels_at_annual_rate)),
+        "int_deflator_contributions": (need[price_convention], lambda lv: deflator_contributions.deflator_contributions(
+            lv, hierarchy=config.hierarchy, convention=price_convention)),
+        "int_income_contributions": ("chain_linked", deflator_contributions.income_side_contributions),
+    }
+    for statement, (basis, method) in tables.items():
+        usable = levels[levels["economy"].isin(levels.loc[levels["price_basis"] == basis, "economy"])]
+        if usable.empty:
+            log.info("%s: no %s values, none computed", statement.removeprefix("int_"), basis)
+            rows = pd.DataFrame({c: pd.Series(dtype="float64" if c in _FLOAT else "int64" if c in ("year", "quarter")
+                                              else "str") for c in CONTRIBUTION_COLUMNS})
+        else:
+            rows = method(usable)
+        db.register(con, "contribution_rows", rows)
+        db.run_sql(con, statement)
+        con.unregister("contribution_rows")
+
+
+CONTRIBUTION_COLUMNS = ["economy", "period", "frequency", "year", "quarter", "aggregate", "item", "horizon",
+                        "contribution_pp", "aggregate_growth_pct", "residual_pp"]
+_FLOAT = ("contribution_pp", "aggregate_growth_pct", "residual_pp")
 
 
 def zero_fill_components(levels: pd.DataFrame, hierarchy) -> pd.DataFrame:

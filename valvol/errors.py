@@ -67,7 +67,7 @@ class InputError(ValvolError):
     def summary(self) -> str:
         n = len(self.problems)
         head = [p.render() for p in self.problems[: self.limit]]
-        more = [f"... and {n - self.limit} more (see the problems report)"] if n > self.limit else []
+        more = [f"... and {n - self.limit} more"] if n > self.limit else []
         return "\n".join([f"{n} problem(s) in the accounts:", *head, *more])
 
 

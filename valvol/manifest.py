@@ -25,12 +25,15 @@ from valvol.io.readers import account_files
 _PACKAGES = ("pandas", "numpy", "pyarrow", "duckdb", "pandera", "prefect", "scipy")
 
 
-def input_files(accounts_dir: Path) -> list[dict[str, str]]:
-    """Every file that shaped the rebuild (data files and valvol.toml), with SHA-256."""
+def input_files(accounts_dir: Path, config: Config | None = None) -> list[dict[str, str]]:
+    """Every file that shaped the rebuild (data files, valvol.toml, benchmarks files), with SHA-256."""
     files = account_files(accounts_dir)
     if (accounts_dir / CONFIG_FILE).exists():
         files.append(accounts_dir / CONFIG_FILE)
-    return [{"file": p.name, "sha256": sha256_file(p)} for p in sorted(files)]
+    if config is not None:
+        files += [accounts_dir / n for n in sorted({config.benchmark.benchmarks, config.reconcile.benchmarks} - {""})
+                  if (accounts_dir / n).is_file()]
+    return [{"file": p.relative_to(accounts_dir).as_posix(), "sha256": sha256_file(p)} for p in sorted(files)]
 
 
 @cache
@@ -52,10 +55,25 @@ def code_fingerprint() -> str:
     return h.hexdigest()
 
 
-def fingerprint(accounts_dir: Path, config: Config) -> str:
-    """SHA-256 over inputs, configuration and valvol's code: equal fingerprints, equal tables."""
+def package_versions() -> dict[str, str | None]:
+    """Versions of Python, valvol and the libraries that shape the outputs."""
+    versions: dict[str, str | None] = {"valvol": __version__, "python": platform.python_version()}
+    for name in _PACKAGES:
+        try:
+            versions[name] = metadata.version(name)
+        except metadata.PackageNotFoundError:
+            versions[name] = None
+    return versions
+
+
+def fingerprint(accounts_dir: Path, config: Config, options: dict | None = None) -> str:
+    """SHA-256 over inputs, configuration, rebuild options, valvol's code and library versions.
+
+    Equal fingerprints mean equal outputs, so a rebuild with an equal fingerprint is skipped.
+    """
     payload = json.dumps(
-        {"inputs": input_files(accounts_dir), "config": _config_for_hash(config), "code": code_fingerprint()},
+        {"inputs": input_files(accounts_dir, config), "config": _config_for_hash(config),
+         "options": options or {}, "code": code_fingerprint(), "versions": package_versions()},
         sort_keys=True,
     )
     return hashlib.sha256(payload.encode()).hexdigest()
@@ -70,10 +88,16 @@ def _config_for_hash(config: Config) -> dict:
 LABEL = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.-]{0,39}$")
 
 
-def vintage_name(now: datetime, fp: str, label: str | None) -> str:
-    """``<UTC timestamp>-<fingerprint[:8]>[-<label>]``; names sort in time order."""
+def check_label(label: str | None) -> str | None:
+    """A vintage label, checked: 1-40 characters of A-Z, a-z, 0-9, _ . - (ConfigError otherwise)."""
     if label is not None and not LABEL.match(label):
         raise ConfigError(f"vintage label {label!r}: use 1-40 characters of A-Z, a-z, 0-9, _ . -")
+    return label
+
+
+def vintage_name(now: datetime, fp: str, label: str | None) -> str:
+    """``<UTC timestamp>-<fingerprint[:8]>[-<label>]``; names sort in time order."""
+    check_label(label)
     return f"{now:%Y%m%dT%H%M%SZ}-{fp[:8]}" + (f"-{label}" if label else "")
 
 
@@ -84,26 +108,23 @@ def build_manifest(
     checks: dict[str, int],
     timings: dict[str, float],
     *,
-    label: str | None = None,
+    options: dict | None = None,
 ) -> dict:
-    """The manifest written last into a vintage."""
+    """The manifest written last into a vintage (``options``: label and charts of the rebuild)."""
     now = datetime.now(UTC)
-    fp = fingerprint(accounts_dir, config)
-    versions = {"valvol": __version__, "python": platform.python_version()}
-    for name in _PACKAGES:
-        try:
-            versions[name] = metadata.version(name)
-        except metadata.PackageNotFoundError:
-            versions[name] = None
+    options = options or {}
+    label = options.get("label")
+    fp = fingerprint(accounts_dir, config, options)
     return {
         "vintage": vintage_name(now, fp, label),
         "label": label,
         "created_at": now.isoformat(timespec="seconds"),
         "fingerprint": fp,
         "accounts_dir": str(accounts_dir.resolve()),
-        "inputs": input_files(accounts_dir),
+        "inputs": input_files(accounts_dir, config),
         "config": config.as_dict(),
-        "versions": versions,
+        "options": options,
+        "versions": package_versions(),
         "row_counts": counts,
         "checks": {"pass": 0, "warn": 0, "fail": 0, **checks},
         "timings_s": timings,

@@ -22,6 +22,8 @@ import json
 import logging
 import shutil
 import time
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -128,11 +130,14 @@ def validate(accounts_dir: str | Path, work: str | Path, config: Config | None =
     rows = pd.read_parquet(work / ROWS_FILE)
     row_level = row_problems(rows, config)
     problems += row_level
-    bad = {(p.file, p.row) for p in row_level}
-    keep = [(f, r) not in bad for f, r in zip(rows["source_file"], rows["source_row"], strict=True)]
-    ok = rows.loc[pd.Series(keep, index=rows.index, dtype=bool)]
+    bad = pd.DataFrame([(p.file, p.row) for p in row_level], columns=["source_file", "source_row"])
+    located = pd.MultiIndex.from_frame(rows[["source_file", "source_row"]])
+    ok = rows.loc[~located.isin(pd.MultiIndex.from_frame(bad.astype({"source_row": "int64"})))]
+    if rows.empty and not problems:
+        problems.append(Problem(file=str(accounts_dir), reason="the accounts files hold no data rows"))
     problems += duplicate_keys(ok)
-    problems += period_gaps(ok.drop_duplicates(["economy", "item", "price_basis", "period"]))
+    dated = rows[rows["frequency"] != ""]  # every row with a valid period counts for contiguity
+    problems += period_gaps(dated.drop_duplicates(["economy", "item", "price_basis", "period"]))
     is_index = ok["price_basis"].eq("index")
     indexes, ok = ok[is_index], ok[~is_index]
     for economy in sorted(set(indexes["economy"]) - set(ok["economy"])):
@@ -264,7 +269,8 @@ def write(
     timings = json.loads((work / TIMINGS_FILE).read_text())
     for name in SCRATCH:
         (work / name).unlink(missing_ok=True)
-    manifest = build_manifest(Path(accounts_dir), config, counts, checks, timings, label=label)
+    options = rebuild_options(label, charts, chart_economies)
+    manifest = build_manifest(Path(accounts_dir), config, counts, checks, timings, options=options)
     manifest["charts"] = sorted(str(p.relative_to(work)) for p in drawn)
     manifest["revised_against"] = revisions and json.loads(
         (Path(out_dir) / pub.LATEST / MANIFEST_FILE).read_text())["vintage"] or None
@@ -301,14 +307,22 @@ def publish(work: str | Path, out_dir: str | Path) -> Path:
     return target
 
 
-def unchanged_since_latest(accounts_dir: str | Path, out_dir: str | Path, config: Config) -> Path | None:
-    """The latest vintage when it was built from identical inputs, code and config; else None."""
+def rebuild_options(label: str | None, charts: bool, chart_economies: list[str] | None) -> dict:
+    """The rebuild options that shape a vintage (part of its fingerprint); checks the label."""
+    from valvol.manifest import check_label
+
+    return {"label": check_label(label), "charts": charts, "chart_economies": chart_economies}
+
+
+def unchanged_since_latest(accounts_dir: str | Path, out_dir: str | Path, config: Config,
+                           options: dict | None = None) -> Path | None:
+    """The latest vintage when it was built from identical inputs, code, config and options; else None."""
     from valvol.manifest import fingerprint
 
     manifest = Path(out_dir) / pub.LATEST / MANIFEST_FILE
     if not manifest.exists():
         return None
-    if json.loads(manifest.read_text()).get("fingerprint") != fingerprint(Path(accounts_dir), config):
+    if json.loads(manifest.read_text()).get("fingerprint") != fingerprint(Path(accounts_dir), config, options):
         return None
     return (Path(out_dir) / pub.LATEST).resolve()
 
@@ -350,10 +364,56 @@ def reconciled_accounts(accounts_dir: str | Path, to_dir: str | Path) -> pd.Data
 
 
 def check(accounts_dir: str | Path, work: str | Path) -> int:
-    """Validate only (load + validate); returns the number of rows checked."""
+    """Every rule a rebuild applies (load, validate, reconcile, derive), writing nothing; the rows checked."""
+    config = load_config(accounts_dir)
     load(accounts_dir, work)
-    validate(accounts_dir, work)
-    return len(pd.read_parquet(Path(work) / ROWS_FILE))
+    n = len(pd.read_parquet(Path(work) / ROWS_FILE))
+    economies = validate(accounts_dir, work, config)
+    reconcile(accounts_dir, work, config)
+    problems: list[Problem] = []
+    for economy in economies:
+        try:
+            derive_economy(accounts_dir, work, economy, config)
+        except InputError as err:
+            problems += err.problems
+    if problems:
+        raise InputError(problems)
+    return n
+
+
+@dataclass(frozen=True)
+class Session:
+    """One rebuild's hold on an output root: its config, and its work folder or the unchanged vintage."""
+
+    config: Config
+    work: Path | None
+    unchanged: Path | None
+
+
+@contextmanager
+def session(accounts_dir: str | Path, out_dir: str | Path, *, force: bool = False,
+            options: dict | None = None) -> Iterator[Session]:
+    """Hold the output lock for one rebuild, shared by `rebuild` and the Prefect flow.
+
+    Yields the unchanged latest vintage (``work`` None) when inputs, code, config and
+    options are as in ``latest`` and ``force`` is False; otherwise a fresh staging folder,
+    removed on any failure and whenever the body ends without publishing it.
+    """
+    if not Path(accounts_dir).is_dir():
+        raise InputError([Problem(file=str(accounts_dir), reason="accounts folder does not exist")])
+    out_dir = Path(out_dir)
+    with pub.output_lock(out_dir):
+        config = load_config(accounts_dir)
+        same = None if force else unchanged_since_latest(accounts_dir, out_dir, config, options)
+        if same is not None:
+            log.info("inputs, code and config unchanged since vintage %s: nothing to do", same.name)
+            yield Session(config, None, same)
+            return
+        work = pub.new_staging_dir(out_dir)
+        try:
+            yield Session(config, work, None)
+        finally:
+            pub.discard_staging(work)  # a no-op once published (the folder has moved)
 
 
 def rebuild(
@@ -366,30 +426,21 @@ def rebuild(
     chart_economies: list[str] | None = None,
 ) -> RebuildResult:
     """Run every stage without Prefect and publish atomically (the flow does the same as tasks)."""
-    out_dir = Path(out_dir)
-    if not Path(accounts_dir).is_dir():
-        raise InputError([Problem(file=str(accounts_dir), reason="accounts folder does not exist")])
-    with pub.output_lock(out_dir):
-        config = load_config(accounts_dir)
-        same = None if force else unchanged_since_latest(accounts_dir, out_dir, config)
-        if same is not None:
-            log.info("inputs, code and config unchanged since vintage %s: nothing to do", same.name)
-            return result_of(same, unchanged=True)
-        work = pub.new_staging_dir(out_dir)
-        try:
-            load(accounts_dir, work)
-            economies = validate(accounts_dir, work, config)
-            reconcile(accounts_dir, work, config)
-            for economy in economies:  # fan-out: one economy at a time here
-                started = time.perf_counter()
-                derive_economy(accounts_dir, work, economy, config)
-                _timed(work, "derive", started)
-            write(accounts_dir, work, config, out_dir=out_dir, label=label, charts=charts,
-                  chart_economies=chart_economies)
-            target = publish(work, out_dir)
-        except BaseException:
-            pub.discard_staging(work)
-            raise
+    options = rebuild_options(label, charts, chart_economies)
+    with session(accounts_dir, out_dir, force=force, options=options) as run:
+        if run.unchanged is not None:
+            return result_of(run.unchanged, unchanged=True)
+        work, config = run.work, run.config
+        load(accounts_dir, work)
+        economies = validate(accounts_dir, work, config)
+        reconcile(accounts_dir, work, config)
+        for economy in economies:  # fan-out: one economy at a time here
+            started = time.perf_counter()
+            derive_economy(accounts_dir, work, economy, config)
+            _timed(work, "derive", started)
+        write(accounts_dir, work, config, out_dir=out_dir, label=label, charts=charts,
+              chart_economies=chart_economies)
+        target = publish(work, out_dir)
     return result_of(target)
 
 

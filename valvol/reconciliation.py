@@ -132,7 +132,7 @@ def run(rows: pd.DataFrame, config: Config, accounts_dir: Path) -> tuple[pd.Data
         else:
             out = bm.denton(ind, targets, method="proportional" if b.method == "proportional_denton" else "additive",
                             stock_flow=sf, on_nonpositive=b.on_nonpositive, by=by)
-        out = out.rename(columns={"series": "item", "indicator": "before", "value": "after"})
+        out = _snap(out.rename(columns={"series": "item", "indicator": "before", "value": "after"}))
         out["constraint"] = np.where(out["benchmarked"], "annual benchmark " + out["year"].astype(str),
                                      "annual benchmarks (extrapolated)")
         reports.append(_report(out, "benchmark"))
@@ -152,10 +152,14 @@ def run(rows: pd.DataFrame, config: Config, accounts_dir: Path) -> tuple[pd.Data
         targets = _annual_targets(rows, set(signs), r.price_bases, annual_rate, given)
         first = _first_year(r.first_year, rows, signs, r.price_bases, given)
         comps, total, disc, targets = _window([comps, total, disc, targets], first)
+        systems = total[_BY].drop_duplicates()  # economies with quarterly totals (not annual-only ones)
+        comps, targets = comps.merge(systems, on=_BY), targets.merge(systems, on=_BY)
+        disc = None if disc is None else disc.merge(systems, on=_BY)
         res = rc.reconcile(comps, signs, total, targets, fixed=r.fixed, discrepancy=disc, method=r.method,
                            stock_flow=stock_flow, tolerance=r.tolerance, by=_BY, total_item=r.aggregate,
                            additive=[c for c in signs if config.hierarchy.is_sign_changing(c)])
-        rep = res.report.rename(columns={"series": "item"})
+        rep = _snap(res.report.rename(columns={"series": "item"}))
+        rep["adjustment"] = rep["after"] - rep["before"]
         reports.append(_report(rep, "reconcile", keep_growth=True))
         rows = _apply(rows, rep)
         checks.append(_identity_checks(res.residuals, r.aggregate))
@@ -177,6 +181,14 @@ def _report(out: pd.DataFrame, step: str, keep_growth: bool = False) -> pd.DataF
         df["growth_before_pct"] = _growth(df, "before")
         df["growth_after_pct"] = _growth(df, "after")
     return df
+
+
+def _snap(out: pd.DataFrame) -> pd.DataFrame:
+    """Adjustments below floating-point noise (1e-9 relative) are no adjustment."""
+    out = out.copy()
+    tiny = (out["after"] - out["before"]).abs() <= 1e-9 * out["before"].abs().clip(lower=1.0)
+    out.loc[tiny, "after"] = out.loc[tiny, "before"]
+    return out
 
 
 def _apply(rows: pd.DataFrame, out: pd.DataFrame) -> pd.DataFrame:
