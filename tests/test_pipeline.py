@@ -122,3 +122,22 @@ def test_series_starting_later_and_components_not_reported(demo_dir, tmp_path):
     assert vol["residual_pp"].abs().max() < 0.01  # rounding of the published volumes only
     levels = pd.read_parquet(out / "levels.parquet")
     assert {"B1GQ_RESIDUAL", "P5_RESIDUAL"} <= set(levels["item"])  # YA1 not expected for B1GQ
+
+
+def test_one_quarter_overlap_quarters_are_benchmarked_to_the_years(demo_dir, tmp_path):
+    # IMF QNA 2017, Example 8.8: one-quarter-overlap quarters, which do not add to the annual
+    # chain, are benchmarked to it by proportional Denton ([volumes] benchmark_to_years = true)
+    acc = pd.read_csv(demo_dir / "accounts.csv")
+    folder = tmp_path / "acc"
+    folder.mkdir()
+    acc[acc["price_basis"] != "chain_linked"].to_csv(folder / "accounts.csv", index=False)
+    (folder / "valvol.toml").write_text((demo_dir / "valvol.toml").read_text()
+                                        + '\n[volumes]\nmethod = "one_quarter_overlap"\n')
+    out = tmp_path / "out"
+    pipeline.rebuild(folder, out, charts=False)
+    clv = pd.read_parquet(out / "levels.parquet").query("price_basis == 'chain_linked' and item == 'B1GQ'")
+    q = clv[clv["frequency"] == "Q"].assign(year=lambda d: d["period"].str[:4]).groupby("year")["value"].sum()
+    a = clv[clv["frequency"] == "A"].set_index("period")["value"]
+    assert ((q - a.reindex(q.index)).abs() / a.reindex(q.index)).max() < 1e-9
+    assert abs(a.loc["2020"] - acc.query("item == 'B1GQ' and price_basis == 'current' and "
+                                         "period.str.startswith('2020')")["value"].sum()) < 1e-6

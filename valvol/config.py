@@ -22,6 +22,7 @@ Example ``valvol.toml``::
     [volumes]
     method = "annual_overlap"      # or "one_quarter_overlap", "over_the_year"
     index = "laspeyres"            # or "fisher" (data chained as Fisher indexes)
+    benchmark_to_years = true      # other methods: quarters benchmarked to the annual chain (Denton)
 
     [contributions]
     convention = "two_step"        # or "prior_year_weights", "fisher"
@@ -58,6 +59,7 @@ class VolumesConfig:
 
     method: str = "annual_overlap"
     index: str = "laspeyres"
+    benchmark_to_years: bool = True
 
 
 @dataclass(frozen=True)
@@ -256,7 +258,10 @@ def _section(raw: Any, cls: type, name: str, source: str) -> Any:
     values = {}
     for key, value in raw.items():
         default = known[key].default
-        if isinstance(default, tuple):
+        if isinstance(default, bool):
+            if not isinstance(value, bool):
+                raise ConfigError(f"[{name}] {key} must be true or false, got {value!r}", file=source)
+        elif isinstance(default, tuple):
             if not isinstance(value, list) or not all(isinstance(v, str) and v for v in value):
                 raise ConfigError(f"[{name}] {key} must be a list of codes, got {value!r}", file=source)
             value = tuple(value)

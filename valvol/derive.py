@@ -140,6 +140,8 @@ def derive_volumes(con: duckdb.DuckDBPyConnection, config: Config) -> None:
             else _given_reference_year(given, current),
             annual_rate=config.levels_at_annual_rate,
         )
+        if config.volumes.method != "annual_overlap" and config.volumes.benchmark_to_years:
+            computed = chainlink.benchmark_to_years(computed, hierarchy=h, annual_rate=config.levels_at_annual_rate)
         key = ["economy", "item", "frequency", "year", "quarter"]
         have = given[key].drop_duplicates()
         fresh = computed.merge(have, on=key, how="left", indicator=True)

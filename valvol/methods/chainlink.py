@@ -17,7 +17,7 @@ import numpy as np
 import pandas as pd
 
 from valvol.errors import ConfigError, Problem
-from valvol.frames import empty_levels, period_label, sort_levels
+from valvol.frames import LEVEL_COLUMNS, empty_levels, period_label, sort_levels
 from valvol.hierarchy import Hierarchy
 from valvol.methods.panel import (
     Lookup,
@@ -175,6 +175,41 @@ def chain_link(levels: pd.DataFrame, *, hierarchy: Hierarchy, method: str = "ann
         parts.append(to_levels(_sign_changing_volumes(w[w["sc"]], ann_lu), "clv"))
     out = pd.concat(parts, ignore_index=True)
     return sort_levels(out)
+
+
+def benchmark_to_years(chained: pd.DataFrame, *, hierarchy: Hierarchy, annual_rate: bool = False) -> pd.DataFrame:
+    """Quarterly chain-linked volumes benchmarked to their annual chain by proportional Denton.
+
+    One-quarter-overlap and over-the-year quarters do not add up to the annual chain-linked
+    volume; as in IMF, *Quarterly National Accounts Manual*, 2017 Edition, Example 8.8, they
+    are benchmarked to it with the proportional first-difference Denton method (Denton 1971;
+    Cholette 1984), keeping their quarterly movements: the quarters of each complete year sum
+    (or, with ``annual_rate``, average) to the annual value; quarters past the last complete
+    year are extrapolated with a flat benchmark-to-indicator ratio. Sign-changing items keep
+    their first differences instead (additive Denton). Annual rows are returned unchanged.
+    """
+    from valvol.methods.benchmark import denton
+
+    q = chained[chained["frequency"] == "Q"]
+    a = chained[chained["frequency"] == "A"]
+    if q.empty or a.empty:
+        return chained
+    by = ["economy", "item"]
+    ind = q[by + ["year", "quarter", "value"]]
+    bench = a[by + ["year", "value"]]
+    bench = bench.merge(ind.groupby(by + ["year"]).size().rename("n").reset_index(), on=by + ["year"])
+    bench = bench[bench["n"] == 4].drop(columns="n")
+    sc = ind["item"].map(hierarchy.is_sign_changing).astype(bool)
+    parts = []
+    for mask, method in ((~sc, "proportional"), (sc, "additive")):  # two calls, each a whole panel
+        sub = ind[mask.to_numpy()]
+        if len(sub):
+            keys = sub[by].drop_duplicates()
+            parts.append(denton(sub, bench.merge(keys, on=by), method=method,
+                                stock_flow="average" if annual_rate else "sum", on_nonpositive="additive", by=by))
+    out = pd.concat(parts, ignore_index=True)[by + ["year", "quarter", "value"]]
+    quarters = q.drop(columns="value").merge(out, on=by + ["year", "quarter"], how="left", validate="one_to_one")
+    return sort_levels(pd.concat([a, quarters[LEVEL_COLUMNS]], ignore_index=True))
 
 
 def _annual_chain(a: pd.DataFrame, ref: pd.Series) -> pd.DataFrame:
