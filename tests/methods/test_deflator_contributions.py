@@ -31,7 +31,7 @@ from valvol.methods.deflator_contributions import (
     CONTRIBUTION_COLUMNS,
     UNIT_DISCREPANCY,
     deflator_contributions,
-    fisher_price_contributions,
+    fisher_price_contributions_arrays,
     income_side_contributions,
 )
 from valvol.methods.deflators import deflator_growth, implicit_deflators
@@ -107,7 +107,7 @@ def test_statcan_fisher_volume_contributions_published():
     (METHODS.md 3.5).
     """
     _, p, q = statcan()
-    ctr, qf, pf = fisher_price_contributions(q["t2"], q["t3"], p["t2"], p["t3"])
+    ctr, qf, pf = fisher_price_contributions_arrays(q["t2"], q["t3"], p["t2"], p["t3"])
     pub = pd.read_csv(REFERENCE / "fisher_contributions_worked_example_published.csv")
     pub = pub[pub["quantity"] == "contribution_pp"].set_index("item")["value"]
     np.testing.assert_allclose(ctr, pub.loc[["A", "B", "C", "D"]].to_numpy(), atol=0.005 + 1e-9)
@@ -119,7 +119,7 @@ def test_statcan_fisher_price_contributions_derived():
     """StatCan Table 2.12 inputs; P^F = 0.9659288 and A -4.4108, B 0, C +3.7430, D -2.7393
     (METHODS.md 10(a), DERIVED), summing exactly to 100 (P^F - 1)."""
     _, p, q = statcan()
-    ctr, pf, qf = fisher_price_contributions(p["t2"], p["t3"], q["t2"], q["t3"])
+    ctr, pf, qf = fisher_price_contributions_arrays(p["t2"], p["t3"], q["t2"], q["t3"])
     assert pf == pytest.approx(0.9659288, abs=5e-8)
     assert qf == pytest.approx(1.0634974, abs=5e-8)
     np.testing.assert_allclose(ctr, [-4.4108, 0.0, 3.7430, -2.7393], atol=5e-5)

@@ -8,7 +8,7 @@ direct component, period and horizon; percentage points; imports negative):
 * `income_side_contributions`: unit labour costs, unit profits, unit net taxes and the
   unit discrepancy, whose sum is the GDP deflator.
 
-`fisher_price_contributions` is the price-side Fisher formula for one set of items.
+`fisher_price_contributions_arrays` is the price-side Fisher formula for one set of items.
 """
 
 from __future__ import annotations
@@ -89,7 +89,7 @@ def step_values(series: pd.DataFrame) -> pd.DataFrame:
     return h.drop(columns=["c_o", "k_o", "C_p", "K_p", "ann_year"])
 
 
-def fisher_price_contributions(
+def fisher_price_contributions_arrays(
     p0: np.ndarray, p1: np.ndarray, q0: np.ndarray, q1: np.ndarray
 ) -> tuple[np.ndarray, float, float]:
     """Price-side contributions to the change of a Fisher price index, one set of items.
@@ -169,7 +169,7 @@ def deflator_contributions(
     signed sum of its components. Inventories and other sign-changing items enter in level
     form and need no deflator of their own.
 
-    ``fisher``: the price-side Fisher formula of `fisher_price_contributions` between the two
+    ``fisher``: the price-side Fisher formula of `fisher_price_contributions_arrays` between the two
     periods compared, with p_i = c_i/CLV_i and q_i = s_i CLV_i (imports at negative
     quantities); a sign-changing component is priced at the aggregate's implicit deflator
     (q_i = s_i c_i / p_Z), a valvol convention. Year-on-year quarterly rows use the direct
