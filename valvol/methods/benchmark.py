@@ -184,12 +184,15 @@ def series_codes(frame: pd.DataFrame, by: list[str]) -> np.ndarray:
     return frame.groupby(by, sort=True).ngroup().to_numpy()
 
 
-def sorted_quarters(frame: pd.DataFrame, key: list[str]):
-    """Quarterly rows sorted by series and period, with the arrays the solvers index by.
+def sorted_quarters(frame: pd.DataFrame, key: list[str], label: str, owner: str):
+    """Quarterly rows sorted by series and period, checked, with the arrays the solvers index by.
 
-    Returns ``(frame, sid, year, quarter, t, new, step)``: the sorted frame (float values),
-    its series codes, years, quarters, running quarter numbers ``t = 4 year + quarter - 1``,
-    the first row of each series (``new``) and the step in ``t`` from the row before.
+    Raises `InputError` naming series and quarter for a quarter outside 1..4, a missing
+    value (``label`` names the values, e.g. "indicator"), a quarter given twice or a gap
+    (``owner`` says whose quarters, e.g. "the indicator's"). Returns ``(frame, sid, year,
+    quarter, t, new, step)``: the sorted frame (float values), its series codes, years,
+    quarters, running quarter numbers ``t = 4 year + quarter - 1``, the first row of each
+    series (``new``) and the step in ``t`` from the row before.
     """
     code = series_codes(frame, key)
     year = frame["year"].to_numpy(dtype="int64")
@@ -203,6 +206,18 @@ def sorted_quarters(frame: pd.DataFrame, key: list[str]):
     n = len(out)
     new = np.r_[True, sid[1:] != sid[:-1]] if n else np.zeros(0, bool)
     step = np.r_[1, np.diff(t)] if n else np.zeros(0, "int64")
+    problems: list[Problem] = []
+    for mask, reason in (
+        ((quarter < 1) | (quarter > 4), "quarter must be 1..4"),
+        (~np.isfinite(out["value"].to_numpy()), f"{label} value is missing or not finite"),
+        (~new & (step == 0), "quarter given twice"),
+        (~new & (step > 1), f"gap before this quarter: {owner} quarters must be consecutive"),
+    ):
+        rows = np.flatnonzero(mask)
+        problems += [series_problem(k, f"{year[r]}-Q{quarter[r]}", reason)
+                     for k, r in zip(_key_dicts(out, key, rows), rows, strict=True)]
+    if problems:
+        raise InputError(problems)
     return out, sid, year, quarter, t, new, step
 
 
@@ -213,20 +228,9 @@ def _arrange(indicator: pd.DataFrame, benchmarks: pd.DataFrame, by: list[str], s
     require_columns(benchmarks, by + ["year", "value"], "benchmarks")
     if indicator[by].isna().any(axis=None) or benchmarks[by].isna().any(axis=None):
         raise InputError([Problem(reason=f"missing values in the key column(s) {', '.join(by)}")])
-    ind, sid, year, quarter, t, new, step = sorted_quarters(indicator, by)
+    ind, sid, year, quarter, t, new, step = sorted_quarters(indicator, by, "indicator", "the indicator's")
     n = len(ind)
     problems: list[Problem] = []
-    for mask, reason in (
-        ((quarter < 1) | (quarter > 4), "quarter must be 1..4"),
-        (~np.isfinite(ind["value"].to_numpy()), "indicator value is missing or not finite"),
-        (~new & (step == 0), "quarter given twice"),
-        (~new & (step > 1), "gap before this quarter: the indicator's quarters must be consecutive"),
-    ):
-        rows = np.flatnonzero(mask)
-        problems += [series_problem(k, f"{year[r]}-Q{quarter[r]}", reason)
-                     for k, r in zip(_key_dicts(ind, by, rows), rows, strict=True)]
-    if problems:
-        raise InputError(problems)
     if "period" not in ind.columns:
         ind["period"] = period_labels(year, quarter)
     starts = np.flatnonzero(new)

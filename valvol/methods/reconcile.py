@@ -95,21 +95,8 @@ class _Layout:
 
 def _arrange(components: pd.DataFrame, by: list[str]) -> _Layout:
     key = by + ["series"]
-    frame, sid, year, quarter, t, new, step = sorted_quarters(components, key)
+    frame, sid, year, quarter, t, new, step = sorted_quarters(components, key, "component", "a component's")
     n = len(frame)
-    problems: list[Problem] = []
-    for mask, reason in (
-        ((quarter < 1) | (quarter > 4), "quarter must be 1..4"),
-        (~np.isfinite(frame["value"].to_numpy()), "component value is missing or not finite"),
-        (~new & (step == 0), "quarter given twice"),
-        (~new & (step > 1), "gap before this quarter: a component's quarters must be consecutive"),
-    ):
-        if mask.any():
-            rows = np.flatnonzero(mask)
-            problems += [series_problem(k, f"{year[r]}-Q{quarter[r]}", reason)
-                         for k, r in zip(frame.iloc[rows][key].to_dict("records"), rows, strict=True)]
-    if problems:
-        raise InputError(problems)
     if "period" not in frame.columns:
         frame["period"] = period_labels(year, quarter)
     starts = np.flatnonzero(new)
