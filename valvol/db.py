@@ -16,6 +16,9 @@ import duckdb
 import pandas as pd
 import pyarrow as pa
 
+#: The embedded database file of a vintage (and of each economy's work while deriving).
+DB_FILE = "valvol.duckdb"
+
 
 @cache
 def sql_text(name: str) -> str:

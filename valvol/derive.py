@@ -24,11 +24,10 @@ import pandas as pd
 
 from valvol import db
 from valvol.config import Config
-from valvol.frames import LEVEL_COLUMNS, empty_levels
+from valvol.frames import CHECK_COLUMNS, LEVEL_COLUMNS, empty_levels
 
 log = logging.getLogger("valvol")
 
-CHECK_COLUMNS = ["economy", "period", "check", "item", "value", "tolerance", "status"]
 #: Relative difference (percent) beyond which computed and given volumes earn a warning.
 CHAIN_DIFF_WARN_PCT = 0.1
 
@@ -156,7 +155,7 @@ def derive_volumes(con: duckdb.DuckDBPyConnection, config: Config) -> None:
     _insert_checks(
         con,
         residual.assign(check="nonadditivity_chain_linked", tolerance=float("nan"), status="pass")[
-            ["economy", "period", "check", "item", "value", "tolerance", "status"]
+            CHECK_COLUMNS
         ],
     )
     log.info("volumes: %d given, %d chain-linked here, %d residual rows", len(given), len(computed), len(residual))

@@ -35,11 +35,11 @@ import pandas as pd
 
 from valvol.config import Config
 from valvol.errors import ConfigError, InputError, Problem
+from valvol.frames import CHECK_COLUMNS
 
 REPORT_COLUMNS = ["economy", "period", "item", "price_basis", "step", "before", "after", "adjustment",
                   "adjustment_pct", "adjustment_annual", "adjustment_identity", "constraint",
                   "growth_before_pct", "growth_after_pct"]
-CHECK_COLUMNS = ["economy", "period", "check", "item", "value", "tolerance", "status"]
 _BY = ["economy", "price_basis"]
 
 

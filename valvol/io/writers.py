@@ -18,8 +18,6 @@ from valvol import db
 from valvol.schemas.outputs import TABLES as SCHEMAS
 from valvol.validate import StageError, run_schema
 
-DB_FILE = "valvol.duckdb"
-
 
 def write_tables(work: Path, tables: dict[str, pa.Table]) -> dict[str, int]:
     """Validate and write ``work/<table>.parquet`` and ``work/valvol.duckdb``; return row counts."""
@@ -32,7 +30,7 @@ def write_tables(work: Path, tables: dict[str, pa.Table]) -> dict[str, int]:
             raise StageError(f"table {name} breaks its schema ({len(problems)} problem(s)):\n{shown}")
         pq.write_table(table, work / f"{name}.parquet", compression="zstd")
         counts[name] = table.num_rows
-    con = db.connect(work / DB_FILE)
+    con = db.connect(work / db.DB_FILE)
     try:
         for name, table in tables.items():
             db.register(con, "published_rows", table)
