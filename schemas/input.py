@@ -9,7 +9,10 @@ contiguous quarters, identities) are in `valvol.validate`.
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 import numpy as np
+import pandas as pd
 import pandera.pandas as pa
 
 from valvol.frames import PRICE_BASES
@@ -22,15 +25,27 @@ ECONOMY_PATTERN = r"^[A-Z0-9_]{2,16}$"
 INDEX_BASIS = "index"
 
 
+def _per_code(predicate: Callable[[str], bool]) -> Callable[[pd.Series], pd.Series]:
+    """A vectorised test of item codes: ``predicate`` runs once per distinct code."""
+    def test(items: pd.Series) -> pd.Series:
+        return items.isin([u for u in pd.unique(items) if predicate(u)])
+    return test
+
+
 def input_rows(
-    allowed_items: frozenset[str], sign_changing: frozenset[str], price_indexes: frozenset[str] = frozenset({"CPI"})
+    is_allowed: Callable[[str], bool], is_sign_changing: Callable[[str], bool],
+    price_indexes: frozenset[str] = frozenset({"CPI"}),
 ) -> pa.DataFrameSchema:
     """Schema of parsed input rows for one configuration's allowed, sign-changing and index items.
 
-    Price indexes (e.g. a consumer price index ``CPI``) come with ``price_basis`` ``index``,
-    monthly (``YYYY-MM``) or quarterly, strictly positive; accounts items never do.
+    ``is_allowed`` and ``is_sign_changing`` judge an item code (`valvol.hierarchy.Hierarchy`:
+    a breakdown such as ``P52_PRIV`` follows its transaction ``P52``). Price indexes (e.g. a
+    consumer price index ``CPI``) come with ``price_basis`` ``index``, monthly (``YYYY-MM``)
+    or quarterly, strictly positive; accounts items never do.
     """
     indexes = sorted(price_indexes)
+    allowed = _per_code(lambda code: code in price_indexes or is_allowed(code))
+    changes_sign = _per_code(is_sign_changing)
     bases = (*PRICE_BASES, INDEX_BASIS)
     return pa.DataFrameSchema(
         {
@@ -46,9 +61,11 @@ def input_rows(
                 str,
                 [
                     pa.Check.str_matches(ITEM_CODE.pattern, error="item is not of the form of an SNA code"),
-                    pa.Check.isin(
-                        sorted(allowed_items),
-                        error="item is not a known SNA code; declare it in [aggregates] of valvol.toml",
+                    pa.Check(
+                        allowed,
+                        error="item is not a known SNA code nor a breakdown of one (CODE_SUFFIX, e.g. P52_PRIV): "
+                              "declare it in [aggregates] of valvol.toml",
+                        name="known_item",
                     ),
                 ],
             ),
@@ -69,8 +86,9 @@ def input_rows(
                 name="value_is_number",
             ),
             pa.Check(
-                lambda df: ~(df["value"] < 0) | df["item"].isin(sorted(sign_changing)),
-                error="negative level of an item that cannot be negative",
+                lambda df: ~(df["value"] < 0) | changes_sign(df["item"]),
+                error="negative level of an item that cannot be negative (if this transaction changes "
+                      "sign, list it in sign_changing of valvol.toml)",
                 name="non_negative",
             ),
             pa.Check(

@@ -55,11 +55,11 @@ checks = pa.DataFrameSchema(
     {
         "economy": pa.Column(str),
         "period": pa.Column(str),
-        "check": pa.Column(str),
+        "rule": pa.Column(str),
         "item": pa.Column(str),
         "value": pa.Column(float, nullable=True),
         "tolerance": pa.Column(float, nullable=True),
-        "status": pa.Column(str, pa.Check.isin(["pass", "warn", "fail"])),
+        "status": pa.Column(str, pa.Check.isin(["pass", "warn", "fail", "info"])),
     },
     strict=True,
     name="checks",

@@ -1,5 +1,5 @@
 -- Intermediate: checks that fail; any row stops the rebuild (nothing inconsistent is published).
-SELECT economy, period, "check", item, value, tolerance
+SELECT economy, period, rule, item, value, tolerance
 FROM checks
 WHERE status = 'fail'
-ORDER BY economy, "check", item, period;
+ORDER BY economy, rule, item, period;

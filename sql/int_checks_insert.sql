@@ -1,3 +1,3 @@
 -- Intermediate: add checks computed by valvol methods (check_rows, registered by valvol.derive).
 INSERT INTO checks
-SELECT economy, period, "check", item, value::DOUBLE, tolerance::DOUBLE, status FROM check_rows;
+SELECT economy, period, rule, item, value::DOUBLE, tolerance::DOUBLE, status FROM check_rows;

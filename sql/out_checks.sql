@@ -1,4 +1,4 @@
 -- Output: every evaluated check, ordered (failures and warnings are also counted in the manifest).
-SELECT economy, period, "check", item, value, tolerance, status
+SELECT economy, period, rule, item, value, tolerance, status
 FROM checks
-ORDER BY economy, "check", item, period;
+ORDER BY economy, rule, item, period;

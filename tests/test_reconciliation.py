@@ -68,8 +68,8 @@ def test_reconciled_components_add_up_and_meet_their_years(demo_dir, tmp_path):
     y2024 = report[report["period"].str.startswith("2024")].groupby("item")["adjustment"].sum()
     assert y2024.abs().max() < 1e-6
     checks = pd.read_parquet(out / "checks.parquet")
-    after = checks[checks["check"] == "reconcile_identity_after_current"]
-    before = checks[checks["check"] == "reconcile_identity_before_current"]
+    after = checks[checks["rule"] == "reconcile_identity_after_current"]
+    before = checks[checks["rule"] == "reconcile_identity_before_current"]
     assert (after["status"] == "pass").all() and (before["status"] == "warn").any()
 
 

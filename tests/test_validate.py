@@ -49,7 +49,7 @@ def test_every_row_problem_is_reported_with_file_row_series_period(accounts, tmp
         (4, "negative level of an item that cannot be negative"),
         (5, "economy code must be 2-16 characters of A-Z, 0-9, _"),
         (6, "period must be YYYY-Qn, YYYYQn or YYYY"),
-        (7, "item is not a known SNA code; declare it in [aggregates] of valvol.toml"),
+        (7, "item is not a known SNA code nor a breakdown of one"),
         (8, "price_basis must be one of current, previous_year, chain_linked, index"),
         (9, "duplicate of accounts.csv:2"),
         (11, "value must be a finite number"),

@@ -25,7 +25,7 @@ Example ``valvol.toml``::
     benchmark_to_years = true      # other methods: quarters benchmarked to the annual chain (Denton)
 
     [contributions]
-    convention = "two_step"        # or "prior_year_weights", "fisher"
+    convention = "annual_overlap_exact"        # or "prior_year_weights", "fisher"
 
     [price_gaps]
     numeraire = "trade_average"    # or "import", "export", "domestic_final_demand"
@@ -66,7 +66,7 @@ class VolumesConfig:
 class ContributionsConfig:
     """Convention of contributions to growth."""
 
-    convention: str = "two_step"
+    convention: str = "annual_overlap_exact"
 
 
 @dataclass(frozen=True)
@@ -76,7 +76,7 @@ class BenchmarkConfig:
     items: tuple[str, ...] = ()
     price_bases: tuple[str, ...] = ("current",)
     method: str = "proportional_denton"
-    stock_flow: str = ""
+    year_from_quarters: str = ""
     on_nonpositive: str = "error"
     rho: float | None = None
     benchmarks: str = ""
@@ -108,10 +108,10 @@ class PriceGapsConfig:
 _CHOICES: dict[tuple[str, str], tuple[str, ...]] = {
     ("volumes", "method"): ("annual_overlap", "one_quarter_overlap", "over_the_year"),
     ("volumes", "index"): ("laspeyres", "fisher"),
-    ("contributions", "convention"): ("two_step", "prior_year_weights", "fisher"),
+    ("contributions", "convention"): ("annual_overlap_exact", "prior_year_weights", "fisher"),
     ("price_gaps", "numeraire"): ("trade_average", "import", "export", "domestic_final_demand"),
     ("benchmark", "method"): ("proportional_denton", "additive_denton", "chow_lin"),
-    ("benchmark", "stock_flow"): ("", "sum", "average", "last", "first"),
+    ("benchmark", "year_from_quarters"): ("", "total", "mean", "q4", "q1"),
     ("benchmark", "on_nonpositive"): ("error", "additive"),
     ("reconcile", "method"): ("proportional_denton", "wls"),
 }
@@ -132,10 +132,6 @@ class Config:
     reconcile: ReconcileConfig = field(default_factory=ReconcileConfig)
     price_indexes: tuple[str, ...] = ("CPI",)
     source: str = ""
-
-    def allowed_items(self) -> frozenset[str]:
-        """Item codes accepted in input: known SNA codes, declared aggregates, price indexes."""
-        return self.hierarchy.allowed_items() | frozenset(self.price_indexes)
 
     def as_dict(self) -> dict[str, Any]:
         """Plain data for the manifest (the hierarchy as signed code lists)."""
@@ -203,8 +199,10 @@ def config_from_mapping(raw: dict[str, Any], *, source: str = "") -> Config:
     if not isinstance(aggregates, dict):
         raise ConfigError("[aggregates] must be a table of code = [components]", file=source)
     sign_changing = raw.get("sign_changing", [])
-    if not isinstance(sign_changing, list) or not all(isinstance(s, str) for s in sign_changing):
-        raise ConfigError("sign_changing must be a list of item codes", file=source)
+    if not isinstance(sign_changing, list) or not all(isinstance(s, str) and ITEM_CODE.match(s)
+                                                       for s in sign_changing):
+        raise ConfigError(f"sign_changing must be a list of item codes (e.g. [\"P52_PRIV\"]), got {sign_changing!r}",
+                          file=source)
     indexes = raw.get("price_indexes", ["CPI"])
     if not isinstance(indexes, list) or not all(isinstance(s, str) and ITEM_CODE.match(s) for s in indexes):
         raise ConfigError("price_indexes must be a list of item codes", file=source)
@@ -227,13 +225,12 @@ def config_from_mapping(raw: dict[str, Any], *, source: str = "") -> Config:
 def _check_adjustments(b: BenchmarkConfig, r: ReconcileConfig, hierarchy: Hierarchy,
                        indexes: tuple[str, ...], source: str) -> None:
     """Codes and price bases of [benchmark] and [reconcile] must be ones valvol can adjust."""
-    allowed = hierarchy.allowed_items() - set(indexes)
     bases = ("current", "previous_year")
     codes = {"[benchmark] items": b.items, "[reconcile] components": tuple(c.lstrip("+-") for c in r.components),
              "[reconcile] fixed": r.fixed,
              "[reconcile] aggregate / discrepancy": tuple(c for c in (r.aggregate, r.discrepancy) if c)}
     for where, items in codes.items():
-        unknown = sorted(set(items) - allowed)
+        unknown = sorted(i for i in set(items) if i in indexes or not hierarchy.is_allowed(i))
         if unknown:
             raise ConfigError(f"{where}: unknown item code(s) {', '.join(unknown)}", file=source)
     for where, chosen in (("[benchmark]", b.price_bases), ("[reconcile]", r.price_bases)):

@@ -69,7 +69,7 @@ def derive_all(
         _insert_checks(con, extra_checks)
     derive_volumes(con, config)
     check_levels(con)
-    sign_changing = sorted(config.hierarchy.sign_changing)
+    sign_changing = config.hierarchy.sign_changing_among(db.query_df(con, "int_levels_items")["item"])
     db.run_sql(con, "int_deflators", sign_changing=sign_changing)
     db.run_sql(con, "int_growth", sign_changing=sign_changing)
     db.run_sql(con, "int_checks_identity")
@@ -154,7 +154,7 @@ def derive_volumes(con: duckdb.DuckDBPyConnection, config: Config) -> None:
     _insert_levels(con, residual, "residual")
     _insert_checks(
         con,
-        residual.assign(check="nonadditivity_chain_linked", tolerance=float("nan"), status="pass")[
+        residual.assign(rule="nonadditivity_chain_linked", tolerance=float("nan"), status="info")[
             CHECK_COLUMNS
         ],
     )
@@ -218,7 +218,7 @@ def _chain_comparison_checks(cmp: pd.DataFrame) -> pd.DataFrame:
         {
             "economy": cmp["economy"],
             "period": cmp["period"],
-            "check": "chain_linked_given_vs_computed_pct",
+            "rule": "chain_linked_given_vs_computed_pct",
             "item": cmp["item"],
             "value": cmp["pct_diff"],
             "tolerance": CHAIN_DIFF_WARN_PCT,
@@ -230,7 +230,7 @@ def _chain_comparison_checks(cmp: pd.DataFrame) -> pd.DataFrame:
 def derive_contributions(con: duckdb.DuckDBPyConnection, config: Config) -> None:
     """Contributions to volume growth and to deflator growth of every declared aggregate.
 
-    ``two_step`` needs previous-year prices and ``prior_year_weights`` and ``fisher`` need
+    ``annual_overlap_exact`` needs previous-year prices and ``prior_year_weights`` and ``fisher`` need
     chain-linked volumes: without them an economy gets no contributions (and a log line),
     never figures built from current prices alone.
     """
@@ -240,8 +240,8 @@ def derive_contributions(con: duckdb.DuckDBPyConnection, config: Config) -> None
     levels = zero_fill_components(levels[~levels["item"].str.endswith("_RESIDUAL")], config.hierarchy)
     convention = config.contributions.convention
     # the UK agency's weighting is a volume convention; prices then follow the exact two-step links
-    price_convention = "fisher" if convention == "fisher" else "two_step"
-    need = {"two_step": "previous_year", "prior_year_weights": "chain_linked", "fisher": "chain_linked"}
+    price_convention = "fisher" if convention == "fisher" else "annual_overlap_exact"
+    need = {"annual_overlap_exact": "previous_year", "prior_year_weights": "chain_linked", "fisher": "chain_linked"}
     tables = {
         "int_volume_contributions": (need[convention], lambda lv: contributions.volume_contributions(
             lv, hierarchy=config.hierarchy, convention=convention, annual_rate=config.levels_at_annual_rate)),

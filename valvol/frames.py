@@ -32,7 +32,7 @@ KEY = ["economy", "item", "price_basis", "frequency", "year", "quarter"]
 LEVEL_COLUMNS = ["economy", "item", "price_basis", "frequency", "year", "quarter", "period", "value"]
 PRICE_BASES = ("current", "previous_year", "chain_linked")
 #: Columns of the ``checks`` table, wherever checks are made.
-CHECK_COLUMNS = ["economy", "period", "check", "item", "value", "tolerance", "status"]
+CHECK_COLUMNS = ["economy", "period", "rule", "item", "value", "tolerance", "status"]
 
 
 def period_label(year: np.ndarray | pd.Series, quarter: np.ndarray | pd.Series) -> pd.Series:

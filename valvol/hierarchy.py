@@ -6,10 +6,16 @@ government consumption plus gross capital formation plus exports, less
 imports, plus the statistical discrepancy (SNA 2008, ch. 16 expenditure
 approach; codes as in the SDMX national-accounts code lists).
 
+An item code is a transaction code with optional breakdown suffixes joined by
+``_`` (``P52_PRIV``, ``P52_S11``, ``P53_PUB``, ``B11_GOODS``, ``D2X3_S13``): such
+a code is accepted wherever its transaction is, and it may be negative exactly
+when its transaction may (the longest sign-changing code it extends at a ``_``
+boundary), so a sector split of inventories behaves as inventories do.
+
 Notes
 -----
 Aggregates are formed at current prices and at previous-year prices, never
-by summing chain-linked components (ESA 95 para. 10.65; METHODS.md section 2.3).
+by summing chain-linked components (ESA 95 para. 10.65).
 """
 
 from __future__ import annotations
@@ -41,9 +47,29 @@ KNOWN_ITEMS: frozenset[str] = frozenset(
     }
 )
 
-#: Items that change sign or pass near zero: no non-negativity rule, no own
-#: growth rate and no own deflator (METHODS.md sections 1 and 2.4).
+#: Transactions that change sign or pass near zero (changes in inventories, valuables,
+#: external balance, statistical discrepancy, net taxes): no non-negativity rule, no own
+#: growth rate and no own deflator, for them and for every breakdown of them.
 DEFAULT_SIGN_CHANGING: frozenset[str] = frozenset({"P52", "P53", "P52_P53", "B11", "YA1", "D2X3"})
+
+
+def extended_code(item: str, codes: Iterable[str]) -> str | None:
+    """The longest of ``codes`` that ``item`` equals or extends at a ``_`` boundary, else None.
+
+    >>> extended_code("P52_PRIV", {"P52", "P52_P53", "P5"})
+    'P52'
+    >>> extended_code("P52_P53_S11", {"P52", "P52_P53"})
+    'P52_P53'
+    >>> extended_code("P51G", {"P5"}) is None
+    True
+    """
+    codes = set(codes)
+    parts = item.split("_")
+    for n in range(len(parts), 0, -1):
+        head = "_".join(parts[:n])
+        if head in codes:
+            return head
+    return None
 
 
 @dataclass(frozen=True)
@@ -122,13 +148,33 @@ class Hierarchy:
         return frozenset(out)
 
     def allowed_items(self) -> frozenset[str]:
-        """Codes accepted in input: the known SNA codes plus declared ones."""
+        """Transaction codes accepted in input: the known SNA codes plus declared ones.
+
+        Breakdowns of these codes (`is_allowed`) are accepted too.
+        """
         return KNOWN_ITEMS | self.items
+
+    def is_allowed(self, item: str) -> bool:
+        """True for a known or declared code, or a breakdown of one (``P52_PRIV``, ``P3_S13_X``)."""
+        return extended_code(item, self.allowed_items()) is not None
+
+    def sign_changing_transaction(self, item: str) -> str | None:
+        """The sign-changing transaction ``item`` is or breaks down (``P52`` for ``P52_PRIV``), else None."""
+        return extended_code(item, self.sign_changing)
+
+    def anchor(self, item: str) -> str | None:
+        """The code of the hierarchy that ``item`` is or breaks down (longest match), else None."""
+        return extended_code(item, self.items)
 
     def edges(self) -> list[tuple[str, str, int]]:
         """``(aggregate, component, sign)`` rows, in a stable order, for SQL joins."""
         return [(a, c.item, c.sign) for a in sorted(self.aggregates) for c in self.aggregates[a]]
 
     def is_sign_changing(self, item: str) -> bool:
-        """True for items without own growth rate or deflator (and residual items)."""
-        return item in self.sign_changing or item.endswith("_RESIDUAL")
+        """True for items without own growth rate or deflator: sign-changing transactions, their
+        breakdowns (``P52_PRIV`` as ``P52``) and the non-additivity residuals."""
+        return item.endswith("_RESIDUAL") or self.sign_changing_transaction(item) is not None
+
+    def sign_changing_among(self, items: Iterable[str]) -> list[str]:
+        """The sign-changing codes among ``items`` (each distinct code tested once), sorted."""
+        return sorted(i for i in set(items) if self.is_sign_changing(i))

@@ -126,7 +126,7 @@ def build_manifest(
         "options": options,
         "versions": package_versions(),
         "row_counts": counts,
-        "checks": {"pass": 0, "warn": 0, "fail": 0, **checks},
+        "checks": {"pass": 0, "warn": 0, "fail": 0, "info": 0, **checks},
         "timings_s": timings,
         "caution": "Analytical outputs, not official statistics; the compiling agency's methodology "
                    "and release rules prevail.",

@@ -116,7 +116,7 @@ def run(rows: pd.DataFrame, config: Config, accounts_dir: Path) -> tuple[pd.Data
 
     given = _benchmark_file(accounts_dir, config)
     annual_rate = config.levels_at_annual_rate
-    stock_flow = "average" if annual_rate else "sum"
+    year_from_quarters = "mean" if annual_rate else "total"
     rows = rows.copy()
     reports, checks = [], []
     b = config.benchmark
@@ -126,12 +126,12 @@ def run(rows: pd.DataFrame, config: Config, accounts_dir: Path) -> tuple[pd.Data
         targets = _annual_targets(rows, set(b.items), b.price_bases, annual_rate, given)
         ind, targets = _window([ind, targets], _first_year(b.first_year, rows, b.items, b.price_bases, given))
         by = _BY + ["series"]
-        sf = b.stock_flow or stock_flow
+        sf = b.year_from_quarters or year_from_quarters
         if b.method == "chow_lin":
-            out, _ = bm.chow_lin(ind, targets, rho=b.rho, stock_flow=sf, by=by)
+            out, _ = bm.chow_lin(ind, targets, rho=b.rho, year_from_quarters=sf, by=by)
         else:
             out = bm.denton(ind, targets, method="proportional" if b.method == "proportional_denton" else "additive",
-                            stock_flow=sf, on_nonpositive=b.on_nonpositive, by=by)
+                            year_from_quarters=sf, on_nonpositive=b.on_nonpositive, by=by)
         out = _snap(out.rename(columns={"series": "item", "indicator": "before", "value": "after"}))
         out["constraint"] = np.where(out["benchmarked"], "annual benchmark " + out["year"].astype(str),
                                      "annual benchmarks (extrapolated)")
@@ -156,7 +156,7 @@ def run(rows: pd.DataFrame, config: Config, accounts_dir: Path) -> tuple[pd.Data
         comps, targets = comps.merge(systems, on=_BY), targets.merge(systems, on=_BY)
         disc = None if disc is None else disc.merge(systems, on=_BY)
         res = rc.reconcile(comps, signs, total, targets, fixed=r.fixed, discrepancy=disc, method=r.method,
-                           stock_flow=stock_flow, tolerance=r.tolerance, by=_BY, total_item=r.aggregate,
+                           year_from_quarters=year_from_quarters, tolerance=r.tolerance, by=_BY, total_item=r.aggregate,
                            additive=[c for c in signs if config.hierarchy.is_sign_changing(c)])
         rep = _snap(res.report.rename(columns={"series": "item"}))
         rep["adjustment"] = rep["after"] - rep["before"]
@@ -214,7 +214,7 @@ def _annual_checks(out: pd.DataFrame, targets: pd.DataFrame, name: str, annual_r
         resid = m[when] - m["benchmark"]
         tol = 1e-6 * m["benchmark"].abs().clip(lower=1)
         rows.append(pd.DataFrame({
-            "economy": m["economy"], "period": m["year"].astype(str), "check": f"{name}_{when}_" + m["price_basis"],
+            "economy": m["economy"], "period": m["year"].astype(str), "rule": f"{name}_{when}_" + m["price_basis"],
             "item": m["item"], "value": resid, "tolerance": tol,
             "status": np.where(resid.abs() <= tol, "pass", "warn" if when == "before" else "fail"),
         }))
@@ -228,7 +228,7 @@ def _identity_checks(resid: pd.DataFrame, aggregate: str) -> pd.DataFrame:
         tol = 1e-9 * resid["total"].abs().clip(lower=1)
         rows.append(pd.DataFrame({
             "economy": resid["economy"], "period": resid["period"],
-            "check": f"reconcile_identity_{when}_" + resid["price_basis"], "item": aggregate, "value": value,
+            "rule": f"reconcile_identity_{when}_" + resid["price_basis"], "item": aggregate, "value": value,
             "tolerance": tol, "status": np.where(value.abs() <= tol, "pass", "warn" if when == "before" else "fail"),
         }))
     return pd.concat(rows, ignore_index=True)

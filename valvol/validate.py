@@ -87,7 +87,7 @@ def _problem(row: pd.Series, reason: str) -> Problem:
 def row_problems(rows: pd.DataFrame, config: Config) -> list[Problem]:
     """Row-level rules of the input contract (pandera schema `valvol.schemas.input`)."""
     schema = input_schema.input_rows(
-        config.allowed_items(), config.hierarchy.sign_changing, frozenset(config.price_indexes)
+        config.hierarchy.is_allowed, config.hierarchy.is_sign_changing, frozenset(config.price_indexes)
     )
     return run_schema(schema, rows)
 

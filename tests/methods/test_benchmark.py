@@ -20,7 +20,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from valvol.errors import ConfigError, InputError
-from valvol.methods.benchmark import STOCK_FLOW, chow_lin, denton
+from valvol.methods.benchmark import YEAR_FROM_QUARTERS, chow_lin, denton
 
 EXAMPLE_8_8 = Path(__file__).resolve().parents[1] / "reference_data" / "fisher_chain_denton_worked_example.csv"
 SETTINGS = settings(max_examples=50, deadline=None)
@@ -41,7 +41,7 @@ def annual(series, years, values):
 
 
 def aggregate(frame, how, column="value"):
-    w = np.asarray(STOCK_FLOW[how])
+    w = np.asarray(YEAR_FROM_QUARTERS[how])
     f = frame.assign(_w=frame[column] * w[frame["quarter"].to_numpy() - 1])
     return f.groupby(["series", "year"])["_w"].sum()
 
@@ -50,7 +50,7 @@ def dense_denton(ind, years, bench, first_year, *, proportional, how):
     """min sum (r_t - r_{t-1})^2 (r = X/I, or X - I) s.t. J X = A, solved as a dense KKT system."""
     T = len(ind)
     D = np.diff(np.eye(T), axis=0)
-    w = np.asarray(STOCK_FLOW[how])
+    w = np.asarray(YEAR_FROM_QUARTERS[how])
     J = np.zeros((len(years), T))
     for b, y in enumerate(years):
         J[b, 4 * (y - first_year): 4 * (y - first_year) + 4] = w
@@ -82,7 +82,7 @@ def test_imf_qna_2017_example_8_8_average(example_8_8):
     """IMF QNA 2017 Example 8.8: proportional Denton of column (2), 2011q1-2013q4, quarters
     averaging to column (4), reproduces the published column (6) within 0.02."""
     ind, bench, published = example_8_8
-    out = denton(ind, bench, method="proportional", stock_flow="average")
+    out = denton(ind, bench, method="proportional", year_from_quarters="mean")
     np.testing.assert_allclose(out["value"], published, atol=0.02, rtol=0)
     # METHODS.md 10(b) [DERIVED] values from the printed figures (2 decimals)
     derived = [100.74, 100.66, 100.72, 101.04, 101.19, 101.24, 101.82, 102.91, 103.71, 104.27, 104.22, 104.04]
@@ -92,7 +92,7 @@ def test_imf_qna_2017_example_8_8_average(example_8_8):
 def test_imf_qna_2017_example_8_8_sum_of_four(example_8_8):
     """IMF QNA 2017 Example 8.8: the same with the quarters summing to 4 x column (4)."""
     ind, bench, published = example_8_8
-    out = denton(ind, bench.assign(value=4 * bench["value"]), stock_flow="sum")
+    out = denton(ind, bench.assign(value=4 * bench["value"]), year_from_quarters="total")
     np.testing.assert_allclose(out["value"], published, atol=0.02, rtol=0)
     np.testing.assert_allclose(out.groupby("year")["value"].mean().to_numpy(), bench["value"], rtol=1e-12)
 
@@ -100,7 +100,7 @@ def test_imf_qna_2017_example_8_8_sum_of_four(example_8_8):
 # --- independent dense solve ------------------------------------------------------------------
 
 
-@pytest.mark.parametrize("how", list(STOCK_FLOW))
+@pytest.mark.parametrize("how", list(YEAR_FROM_QUARTERS))
 @pytest.mark.parametrize("method", ["proportional", "additive"])
 def test_sparse_panel_agrees_with_dense_kkt(method, how):
     """Denton (1971) / Cholette (1984) objective, METHODS.md 7.1 KKT system, dense numpy solve:
@@ -113,12 +113,12 @@ def test_sparse_panel_agrees_with_dense_kkt(method, how):
     for name, y0, n, years in specs:
         i = random_indicator(rng, n)
         full_years = np.asarray(years)
-        bench = [np.dot(STOCK_FLOW[how], i[4 * (y - y0): 4 * (y - y0) + 4]) * rng.uniform(0.9, 1.1)
+        bench = [np.dot(YEAR_FROM_QUARTERS[how], i[4 * (y - y0): 4 * (y - y0) + 4]) * rng.uniform(0.9, 1.1)
                  for y in full_years]
         inds.append(quarterly(name, y0, i))
         benches.append(annual(name, full_years, bench))
         expected.append(dense_denton(i, full_years, bench, y0, proportional=method == "proportional", how=how))
-    out = denton(pd.concat(inds), pd.concat(benches), method=method, stock_flow=how)
+    out = denton(pd.concat(inds), pd.concat(benches), method=method, year_from_quarters=how)
     exp = np.concatenate(expected)
     np.testing.assert_allclose(out["value"], exp, rtol=0, atol=1e-9 * np.abs(exp).max())
     assert (out["method"] == method).all()
@@ -148,7 +148,7 @@ def test_extrapolation_keeps_the_end_ratio_or_difference_flat():
 # --- properties -------------------------------------------------------------------------------
 
 
-panels = st.tuples(st.integers(0, 10_000), st.integers(1, 3), st.integers(2, 6), st.sampled_from(list(STOCK_FLOW)),
+panels = st.tuples(st.integers(0, 10_000), st.integers(1, 3), st.integers(2, 6), st.sampled_from(list(YEAR_FROM_QUARTERS)),
                    st.sampled_from(["proportional", "additive"]))
 
 
@@ -160,7 +160,7 @@ def random_panel(seed, nseries, nyears, how):
         i = random_indicator(rng, 4 * nyears + 2)  # two extrapolated quarters
         inds.append(quarterly(f"S{s}", y0, i))
         years = y0 + np.arange(nyears)
-        agg = np.asarray(STOCK_FLOW[how]) @ i[: 4 * nyears].reshape(nyears, 4).T
+        agg = np.asarray(YEAR_FROM_QUARTERS[how]) @ i[: 4 * nyears].reshape(nyears, 4).T
         benches.append(annual(f"S{s}", years, agg * rng.uniform(0.8, 1.2, nyears)))
     return pd.concat(inds, ignore_index=True), pd.concat(benches, ignore_index=True)
 
@@ -171,7 +171,7 @@ def test_annual_constraints_hold_exactly(p):
     """METHODS.md 7.1 [DERIVED]: the benchmarked quarters aggregate to the benchmarks (1e-9 rel.)."""
     seed, nseries, nyears, how, method = p
     ind, bench = random_panel(seed, nseries, nyears, how)
-    out = denton(ind, bench, method=method, stock_flow=how)
+    out = denton(ind, bench, method=method, year_from_quarters=how)
     got = aggregate(out, how).reindex(pd.MultiIndex.from_frame(bench[["series", "year"]])).to_numpy()
     np.testing.assert_allclose(got, bench["value"], rtol=1e-9)
 
@@ -189,9 +189,9 @@ def test_indicator_proportional_to_benchmarks_gives_pro_rata(p):
         bench = (k * agg).rename("value").reset_index()
         expected = k * ind["value"].to_numpy()
     else:
-        bench = (agg + 5.0 * sum(STOCK_FLOW[how])).rename("value").reset_index()
+        bench = (agg + 5.0 * sum(YEAR_FROM_QUARTERS[how])).rename("value").reset_index()
         expected = ind["value"].to_numpy() + 5.0
-    out = denton(ind, bench, method=method, stock_flow=how)
+    out = denton(ind, bench, method=method, year_from_quarters=how)
     np.testing.assert_allclose(out["value"], expected, rtol=1e-9)
 
 
@@ -201,8 +201,8 @@ def test_scaling_the_indicator_changes_nothing(p, factor):
     """METHODS.md 7.1 [DERIVED]: PFD results do not depend on the scale of the indicator."""
     seed, nseries, nyears, how, _ = p
     ind, bench = random_panel(seed, nseries, nyears, how)
-    base = denton(ind, bench, stock_flow=how)
-    scaled = denton(ind.assign(value=ind["value"] * factor), bench, stock_flow=how)
+    base = denton(ind, bench, year_from_quarters=how)
+    scaled = denton(ind.assign(value=ind["value"] * factor), bench, year_from_quarters=how)
     np.testing.assert_allclose(scaled["value"], base["value"], rtol=1e-9)
 
 
@@ -237,7 +237,7 @@ def test_input_errors_name_series_and_period():
     with pytest.raises(InputError, match="no benchmark"):
         denton(pd.concat([ind, quarterly("Y", 2020, np.ones(4))]), annual("X", [2020], [10.0]))
     with pytest.raises(ConfigError):
-        denton(ind, annual("X", [2020], [10.0]), stock_flow="end")
+        denton(ind, annual("X", [2020], [10.0]), year_from_quarters="end")
 
 
 def test_levels_panel_keys():
@@ -259,13 +259,13 @@ def test_levels_panel_keys():
 # --- Chow-Lin ---------------------------------------------------------------------------------
 
 
-def dense_chow_lin(i, years, bench, y0, rho, constant=True, how="sum"):
+def dense_chow_lin(i, years, bench, y0, rho, constant=True, how="total"):
     """METHODS.md 7.2 formulas with dense matrices (Chow & Lin 1971)."""
     T = len(i)
     X = np.column_stack([np.ones(T), i]) if constant else i[:, None]
     C = np.zeros((len(years), T))
     for b, y in enumerate(years):
-        C[b, 4 * (y - y0): 4 * (y - y0) + 4] = STOCK_FLOW[how]
+        C[b, 4 * (y - y0): 4 * (y - y0) + 4] = YEAR_FROM_QUARTERS[how]
     lag = np.abs(np.subtract.outer(np.arange(T), np.arange(T)))
     S = rho**lag / (1 - rho**2)
     Va = C @ S @ C.T
@@ -292,14 +292,14 @@ def chow_lin_case(seed, nyears=10, extra=3, phi=0.6):
     return i, years, bench
 
 
-@pytest.mark.parametrize("how", ["sum", "average", "last"])
+@pytest.mark.parametrize("how", ["total", "mean", "q4"])
 @pytest.mark.parametrize("rho", [-0.5, 0.0, 0.45, 0.9])
 def test_chow_lin_fixed_rho_agrees_with_dense_gls(rho, how):
     """Chow & Lin (1971) GLS formulas of METHODS.md 7.2 with dense matrices: same fit, beta and
     log-likelihood to 1e-9, including three extrapolated quarters."""
     i, years, bench = chow_lin_case(11)
-    bench = bench / 4 if how == "average" else bench
-    out, params = chow_lin(quarterly("S", 2000, i), annual("S", years, bench), rho=rho, stock_flow=how)
+    bench = bench / 4 if how == "mean" else bench
+    out, params = chow_lin(quarterly("S", 2000, i), annual("S", years, bench), rho=rho, year_from_quarters=how)
     yhat, beta, ll = dense_chow_lin(i, years, bench, 2000, rho, how=how)
     np.testing.assert_allclose(out["value"], yhat, rtol=1e-9)
     np.testing.assert_allclose(params[["beta_constant", "beta_indicator"]].to_numpy()[0], beta, rtol=1e-8)
@@ -324,11 +324,11 @@ def test_chow_lin_rho_zero_is_ols_plus_even_spread(seed, nyears, constant):
 
 
 @SETTINGS
-@given(st.integers(0, 10_000), st.floats(-0.95, 0.95), st.sampled_from(list(STOCK_FLOW)))
+@given(st.integers(0, 10_000), st.floats(-0.95, 0.95), st.sampled_from(list(YEAR_FROM_QUARTERS)))
 def test_chow_lin_fixed_rho_meets_annual_constraints(seed, rho, how):
     """METHODS.md 7.2: with a fixed rho the disaggregated quarters aggregate to the benchmarks."""
     ind, bench = random_panel(seed, 2, 5, how)
-    out, params = chow_lin(ind, bench, rho=rho, stock_flow=how)
+    out, params = chow_lin(ind, bench, rho=rho, year_from_quarters=how)
     got = aggregate(out, how).reindex(pd.MultiIndex.from_frame(bench[["series", "year"]])).to_numpy()
     np.testing.assert_allclose(got, bench["value"], rtol=1e-9)
     assert (params["rho"] == rho).all()

@@ -102,13 +102,13 @@ def test_uk_prior_year_weights_reproduce_published_contributions(uk_published, u
     assert (err <= 0.005).mean() >= 0.99
 
 
-def test_uk_two_step_matches_published_within_year_and_annual(uk_for_chaining, uk_raw):
-    """METHODS.md 3.4 [DERIVED]: within a year (q/q for Q2-Q4) and annually, two_step equals
+def test_uk_annual_overlap_exact_matches_published_within_year_and_annual(uk_for_chaining, uk_raw):
+    """METHODS.md 3.4 [DERIVED]: within a year (q/q for Q2-Q4) and annually, annual_overlap_exact equals
     prior_year_weights, so on the UK previous-year prices (derived as the reference README
     explains) it reproduces the published q/q and annual contributions of the positive
     components (ONS QNA release of 31 March 2023) within UK_TOL."""
     ch = chain_link(uk_for_chaining, hierarchy=UK_HIERARCHY, reference_year=2019)
-    ours = _uk_ours(pd.concat([uk_for_chaining, ch]), "two_step")
+    ours = _uk_ours(pd.concat([uk_for_chaining, ch]), "annual_overlap_exact")
     pub = _uk_published(uk_raw)
     pub = pub[(pub["horizon"] == "prev_period") & (pub["quarter"] != 1)
               & pub["item"].isin(["P31_S14", "P3_S15", "P3_S13", "P51G", "P6", "P7", "B11"])]
@@ -117,9 +117,9 @@ def test_uk_two_step_matches_published_within_year_and_annual(uk_for_chaining, u
     assert (got["ours"] - got["value"]).abs().max() <= UK_TOL
 
 
-def test_uk_two_step_is_additive(uk_for_chaining):
+def test_uk_annual_overlap_exact_is_additive(uk_for_chaining):
     """METHODS.md 3.3 [DERIVED]: on annual-overlap data additive at both price bases the
-    two_step contributions add up to GDP growth: residual within 1e-9 for all horizons."""
+    annual_overlap_exact contributions add up to GDP growth: residual within 1e-9 for all horizons."""
     ch = chain_link(uk_for_chaining, hierarchy=UK_HIERARCHY, reference_year=2019)
     out = volume_contributions(pd.concat([uk_for_chaining, ch]), hierarchy=UK_HIERARCHY)
     assert set(out["horizon"]) == {"prev_period", "prev_year"}
@@ -289,9 +289,9 @@ def test_errors():
 # ----------------------------------------------------------------------------- properties
 @PROPS
 @given(seed=st.integers(0, 2**32 - 1), annual_rate=st.booleans())
-def test_two_step_contributions_add_up(make_panel, seed, annual_rate):
+def test_annual_overlap_exact_contributions_add_up(make_panel, seed, annual_rate):
     """METHODS.md 3.1-3.3 [DERIVED]: on random positive annual-overlap panels (3 economies,
-    a 2-level hierarchy with imports and inventories) the two_step contributions add up to
+    a 2-level hierarchy with imports and inventories) the annual_overlap_exact contributions add up to
     the aggregate's chain-linked growth for every horizon: residual < 1e-9."""
     panel, h = _quarterly_panel(make_panel, seed, annual_rate=annual_rate)
     out = volume_contributions(panel, hierarchy=h, annual_rate=annual_rate)
@@ -302,9 +302,9 @@ def test_two_step_contributions_add_up(make_panel, seed, annual_rate):
 
 @PROPS
 @given(seed=st.integers(0, 2**32 - 1))
-def test_prior_year_weights_equal_two_step_within_year(make_panel, seed):
+def test_prior_year_weights_equal_annual_overlap_exact_within_year(make_panel, seed):
     """METHODS.md 3.4 [DERIVED]: within a year (q/q of Q2-Q4) and annually prior_year_weights
-    equal the exact two_step contributions for positive components."""
+    equal the exact annual_overlap_exact contributions for positive components."""
     panel, h = _quarterly_panel(make_panel, seed)
     key = ["economy", "aggregate", "item", "period", "horizon"]
     a = volume_contributions(panel, hierarchy=h).set_index(key)["contribution_pp"]

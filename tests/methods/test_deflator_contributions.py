@@ -154,7 +154,7 @@ def uk():
 
 @pytest.mark.parametrize("horizon", ["prev_period", "prev_year"])
 def test_uk_contributions_add_up_to_published_gdp_deflator_growth(uk, horizon):
-    """ONS QNA 31 Mar 2023: contributions to GDP-deflator growth (two_step) sum to the
+    """ONS QNA 31 Mar 2023: contributions to GDP-deflator growth (annual_overlap_exact) sum to the
     published growth (pct_change_deflator_*, 1 decimal) within +-0.05."""
     d, lv = uk
     out = deflator_contributions(lv, hierarchy=Hierarchy.default())
@@ -185,7 +185,7 @@ def test_uk_import_contribution_sign(uk):
 
 @settings(max_examples=20, deadline=None)
 @given(seed=st.integers(0, 2**32 - 1), ref=st.integers(2000, 2002))
-def test_property_two_step_adds_up_to_implicit_deflator_growth(seed, ref):
+def test_property_annual_overlap_exact_adds_up_to_implicit_deflator_growth(seed, ref):
     """Sum of two-step contributions = growth of the aggregate's implicit deflator, to 1e-9,
     all horizons (METHODS.md 4.1, DERIVED); also from c/k alone (no chained aggregate)."""
     lv, hier = random_economy(seed, ref_year=ref)
@@ -197,7 +197,7 @@ def test_property_two_step_adds_up_to_implicit_deflator_growth(seed, ref):
     np.testing.assert_allclose(m["aggregate_growth_pct"], m["pct"], atol=1e-9)
 
 
-def test_two_step_without_chained_aggregates_uses_previous_year_prices():
+def test_annual_overlap_exact_without_chained_aggregates_uses_previous_year_prices():
     """Without chain-linked rows the aggregate's growth comes from c/k (annual overlap)."""
     lv, hier = random_economy(11, ref_year=2001)
     out = deflator_contributions(lv, hierarchy=hier)
@@ -357,7 +357,7 @@ def test_fisher_sign_changing_component_priced_at_aggregate_deflator():
 def test_empty_panel_gives_empty_tables():
     from valvol.frames import empty_levels
 
-    for convention in ("two_step", "fisher"):
+    for convention in ("annual_overlap_exact", "fisher"):
         out = deflator_contributions(empty_levels(), hierarchy=Hierarchy.default(), convention=convention)
         assert out.empty and list(out.columns) == CONTRIBUTION_COLUMNS
     assert income_side_contributions(empty_levels()).empty

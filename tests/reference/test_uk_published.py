@@ -129,7 +129,7 @@ def test_components_add_to_gdp_at_current_prices(uk_out):
     # reference README: current prices add within +-1 (rounding of published components); the
     # published annual totals are rounded on their own, so their residuals reach a few units
     checks = pd.read_parquet(uk_out / "checks.parquet")
-    ident = checks[checks["check"] == "identity_current"]
+    ident = checks[checks["rule"] == "identity_current"]
     assert set(ident["item"]) == {"B1GQ", "P3_P5", "P3_P5_P6"}
     assert (ident["status"] == "pass").all()
     quarterly = ident["period"].str.contains("Q")
@@ -143,3 +143,80 @@ def test_nonadditivity_residual_before_2020(uk_out):
     res = levels[(levels["item"] == "B1GQ_RESIDUAL") & (levels["frequency"] == "Q")].set_index("period")["value"]
     assert res.loc["2015-Q1"] != 0
     assert res.loc[[p for p in res.index if p >= "2020-Q1"]].abs().max() <= 3.0  # additive up to rounding
+
+
+def _split_inventories(folder: Path, *, keep_total: bool) -> None:
+    """Split the published P52 rows into two invented sector parts that add up to them exactly.
+
+    The parts (P52_PRIV, P52_PUB) change sign on their own; with ``keep_total`` the published
+    P52 rows stay as well (the parts are extra breakdown series), else they replace P52.
+    """
+    path = folder / "uk.csv"
+    rows = pd.read_csv(path, dtype={"period": str})
+    p52 = rows[rows["item"] == "P52"].reset_index(drop=True)
+    quarter = p52["period"].str.extract(r"Q([1-4])$")[0].fillna("0").astype(int)
+    wobble = quarter.map({0: 0.0, 1: 900.0, 2: -900.0, 3: 1800.0, 4: -1800.0})  # adds to 0 in a year
+    priv = p52.assign(item="P52_PRIV", value=0.7 * p52["value"] + wobble)
+    pub = p52.assign(item="P52_PUB", value=p52["value"] - priv["value"])
+    kept = rows if keep_total else rows[rows["item"] != "P52"]
+    pd.concat([kept, priv, pub], ignore_index=True).to_csv(path, index=False)
+
+
+@pytest.fixture(scope="module")
+def uk_split(tmp_path_factory) -> tuple[Path, Path]:
+    """The release rebuilt twice under prior-year weights: as published, and with P52 split by sector."""
+    root = tmp_path_factory.mktemp("uk_split")
+    pyw = '[contributions]\nconvention = "prior_year_weights"\n'
+    whole = uk_accounts(root / "whole", pyw)
+    split = uk_accounts(root / "split", pyw)
+    _split_inventories(split, keep_total=False)
+    toml = (split / "valvol.toml").read_text().replace('"P52",', '"P52_PRIV", "P52_PUB",')
+    (split / "valvol.toml").write_text(toml)
+    for folder in (whole, split):
+        pipeline.rebuild(folder, root / f"out_{folder.name}", charts=False)
+    return root / "out_whole", root / "out_split"
+
+
+def test_sector_split_inventories_rebuild_as_published(uk_split):
+    # ONS QNA 31 March 2023 (YBGB and the P3_P5 deflator), with inventories split into two
+    # invented sector parts: P52_PRIV and P52_PUB may be negative as P52 may (no sign_changing
+    # declared), get no deflator and no growth rate, and the published deflators still follow.
+    _, split = uk_split
+    defl = pd.read_parquet(split / "deflators.parquet")
+    assert not defl["item"].str.startswith("P52").any()
+    growth = pd.read_parquet(split / "growth.parquet")
+    assert not growth["item"].str.startswith("P52").any()
+    both = _published("implicit_deflator").merge(defl, on=["period", "item"])
+    assert len(both) == 280
+    assert (both["deflator"] - both["value"]).abs().max() <= ONE_DECIMAL
+    levels = pd.read_parquet(split / "levels.parquet")
+    assert (levels.loc[levels["item"] == "P52_PUB", "value"] < 0).any()
+    assert (levels.loc[levels["item"] == "P52_PRIV", "value"] < 0).any()
+
+
+def test_sector_parts_contribute_what_inventories_contribute(uk_split):
+    # prior-year weights (ONS convention): a sign-changing part is weighted with the deflator of
+    # its top aggregate, as P52 is, so the two parts contribute exactly what P52 contributes
+    whole, split = uk_split
+    key = ["period", "aggregate", "horizon"]
+    w = pd.read_parquet(whole / "volume_contributions.parquet")
+    s = pd.read_parquet(split / "volume_contributions.parquet")
+    p52 = w[w["item"] == "P52"].set_index(key)["contribution_pp"]
+    parts = s[s["item"].isin(["P52_PRIV", "P52_PUB"])].groupby(key)["contribution_pp"].sum()
+    assert len(p52) == 270 and parts.index.sort_values().equals(p52.index.sort_values())  # P3_P5, 1996-2022
+    assert (parts.reindex(p52.index) - p52).abs().max() < 1e-9
+    other = ["period", "aggregate", "item", "horizon"]
+    rest_w = w[w["item"] != "P52"].set_index(other)["contribution_pp"]
+    rest_s = s[~s["item"].str.startswith("P52")].set_index(other)["contribution_pp"]
+    assert (rest_s.reindex(rest_w.index) - rest_w).abs().max() < 1e-9
+
+
+def test_breakdown_series_need_no_declaration(tmp_path):
+    # the release plus two breakdown series of P52 that neither [aggregates] nor sign_changing
+    # names: accepted as breakdowns of a known transaction, negative like it, no deflator
+    folder = uk_accounts(tmp_path / "accounts")
+    _split_inventories(folder, keep_total=True)
+    pipeline.rebuild(folder, tmp_path / "out", charts=False)
+    levels = pd.read_parquet(tmp_path / "out" / "levels.parquet")
+    assert {"P52_PRIV", "P52_PUB"} <= set(levels["item"])
+    assert not pd.read_parquet(tmp_path / "out" / "deflators.parquet")["item"].str.startswith("P52").any()

@@ -14,8 +14,8 @@ series stacked block-diagonally):
 Input frames are long: the indicator has the key columns ``by`` (default ``series``), ``year``,
 ``quarter`` (1..4) and ``value``; the benchmarks the key columns, ``year`` and ``value``. Each
 series' quarters must be consecutive; a benchmark year must have in the indicator every quarter
-its aggregation uses. ``stock_flow`` says how quarters aggregate to the annual value: ``sum``
-(flows), ``average`` (indices, average stocks), ``last`` / ``first`` (end- / start-of-period
+its aggregation uses. ``year_from_quarters`` says how quarters aggregate to the annual value:
+``total`` (flows), ``mean`` (indices, average stocks), ``q4`` / ``q1`` (end- / start-of-period
 stocks).
 
 Errors in the data raise `valvol.errors.InputError`; each problem names the series (``economy``,
@@ -38,11 +38,11 @@ from valvol.errors import ConfigError, InputError, Problem
 from valvol.frames import period_label
 
 #: Weight of each quarter (1..4) in the annual value, by aggregation type.
-STOCK_FLOW: dict[str, tuple[float, float, float, float]] = {
-    "sum": (1.0, 1.0, 1.0, 1.0),
-    "average": (0.25, 0.25, 0.25, 0.25),
-    "last": (0.0, 0.0, 0.0, 1.0),
-    "first": (1.0, 0.0, 0.0, 0.0),
+YEAR_FROM_QUARTERS: dict[str, tuple[float, float, float, float]] = {
+    "total": (1.0, 1.0, 1.0, 1.0),
+    "mean": (0.25, 0.25, 0.25, 0.25),
+    "q4": (0.0, 0.0, 0.0, 1.0),
+    "q1": (1.0, 0.0, 0.0, 0.0),
 }
 DENTON_METHODS = ("proportional", "additive")
 ON_NONPOSITIVE = ("error", "additive")
@@ -221,9 +221,9 @@ def sorted_quarters(frame: pd.DataFrame, key: list[str], label: str, owner: str)
     return out, sid, year, quarter, t, new, step
 
 
-def _arrange(indicator: pd.DataFrame, benchmarks: pd.DataFrame, by: list[str], stock_flow: str) -> _Panel:
+def _arrange(indicator: pd.DataFrame, benchmarks: pd.DataFrame, by: list[str], year_from_quarters: str) -> _Panel:
     """Validate the inputs and stack them (every problem found is raised at once)."""
-    check_choice("stock_flow", stock_flow, tuple(STOCK_FLOW))
+    check_choice("year_from_quarters", year_from_quarters, tuple(YEAR_FROM_QUARTERS))
     require_columns(indicator, by + ["year", "quarter", "value"], "indicator")
     require_columns(benchmarks, by + ["year", "value"], "benchmarks")
     if indicator[by].isna().any(axis=None) or benchmarks[by].isna().any(axis=None):
@@ -242,7 +242,7 @@ def _arrange(indicator: pd.DataFrame, benchmarks: pd.DataFrame, by: list[str], s
     bm["year"] = bm["year"].astype("int64")
     bm["value"] = bm["value"].astype("float64")
     found = pd.MultiIndex.from_frame(keys).get_indexer(pd.MultiIndex.from_frame(bm[by]))
-    w = np.asarray(STOCK_FLOW[stock_flow])
+    w = np.asarray(YEAR_FROM_QUARTERS[year_from_quarters])
     nz = np.flatnonzero(w)
     orphan = found < 0
     s = np.where(orphan, 0, found)
@@ -251,7 +251,7 @@ def _arrange(indicator: pd.DataFrame, benchmarks: pd.DataFrame, by: list[str], s
     twice = pd.DataFrame({"s": found, "y": y}).duplicated().to_numpy() & ~orphan
     for mask, reason in (
         (orphan, "benchmark for a series that has no indicator rows"),
-        (~orphan & ~covered, f"benchmark year lacks quarters in the indicator ({stock_flow} of quarters)"),
+        (~orphan & ~covered, f"benchmark year lacks quarters in the indicator ({year_from_quarters} of quarters)"),
         (twice, "benchmark given twice"),
         (~np.isfinite(bm["value"].to_numpy()), "benchmark value is missing or not finite"),
     ):
@@ -294,7 +294,7 @@ def _output(panel: _Panel, value: np.ndarray, **extra: np.ndarray) -> pd.DataFra
 
 # ----------------------------------------------------------------------------- Denton
 def denton(indicator: pd.DataFrame, benchmarks: pd.DataFrame, *, method: str = "proportional",
-           stock_flow: str = "sum", on_nonpositive: str = "error",
+           year_from_quarters: str = "total", on_nonpositive: str = "error",
            by: str | Sequence[str] = "series") -> pd.DataFrame:
     """Benchmark quarterly indicator series to annual values by the modified Denton method.
 
@@ -309,9 +309,9 @@ def denton(indicator: pd.DataFrame, benchmarks: pd.DataFrame, *, method: str = "
     method
         ``"proportional"`` (first differences of the benchmarked-to-indicator ratio) or
         ``"additive"`` (first differences of benchmarked minus indicator).
-    stock_flow
-        How quarters aggregate to the annual value: ``"sum"``, ``"average"``, ``"last"``,
-        ``"first"``.
+    year_from_quarters
+        How quarters aggregate to the annual value: ``"total"``, ``"mean"``, ``"q4"``,
+        ``"q1"``.
     on_nonpositive
         Proportional method only, for a series with a zero or negative indicator value:
         ``"error"`` raises `InputError` naming each such series and period; ``"additive"``
@@ -334,7 +334,7 @@ def denton(indicator: pd.DataFrame, benchmarks: pd.DataFrame, *, method: str = "
         not covered by the indicator, a series with no benchmark, a non-positive indicator value
         under the proportional method with ``on_nonpositive="error"``.
     ConfigError
-        An unknown ``method``, ``stock_flow`` or ``on_nonpositive``.
+        An unknown ``method``, ``year_from_quarters`` or ``on_nonpositive``.
 
     Notes
     -----
@@ -343,7 +343,7 @@ def denton(indicator: pd.DataFrame, benchmarks: pd.DataFrame, *, method: str = "
 
         min_X  sum_{t=2..T} (X_t / I_t - X_{t-1} / I_{t-1})^2   s.t.  sum_q w_q X_{q,y} = A_y
 
-    for every benchmark year y (w from ``stock_flow``). Additive (AFD): the same objective in
+    for every benchmark year y (w from ``year_from_quarters``). Additive (AFD): the same objective in
     X - I. Denton's original form fixes X_0 = I_0, which causes a start-up transient; the
     Cholette modification drops that condition, so the objective starts at t = 2. The KKT
     system [[D'D, M'], [M, 0]] [w; l] = [0; A - J I] (D the first-difference matrix, J the
@@ -368,7 +368,7 @@ def denton(indicator: pd.DataFrame, benchmarks: pd.DataFrame, *, method: str = "
     check_choice("method", method, DENTON_METHODS)
     check_choice("on_nonpositive", on_nonpositive, ON_NONPOSITIVE)
     by = key_columns(by)
-    panel = _arrange(indicator, benchmarks, by, stock_flow)
+    panel = _arrange(indicator, benchmarks, by, year_from_quarters)
     x = panel.values
     nseries = len(panel.keys)
     additive = np.full(nseries, method == "additive")
@@ -478,14 +478,14 @@ def _estimate_rho(lay: _AnnualLayout, lo: float, hi: float, step: float) -> tupl
 
 
 def chow_lin(indicator: pd.DataFrame, benchmarks: pd.DataFrame, *, rho: float | None = None,
-             stock_flow: str = "sum", constant: bool = True, by: str | Sequence[str] = "series",
+             year_from_quarters: str = "total", constant: bool = True, by: str | Sequence[str] = "series",
              rho_bounds: tuple[float, float] = (-0.99, 0.99), grid_step: float = 0.05,
              ) -> tuple[pd.DataFrame, pd.DataFrame]:
     """Chow-Lin temporal disaggregation: regression on the indicator with AR(1) errors.
 
     Parameters
     ----------
-    indicator, benchmarks, stock_flow, by
+    indicator, benchmarks, year_from_quarters, by
         As for `denton`; the indicator's ``value`` is the regressor.
     rho
         Fixed autoregressive coefficient (-1 < rho < 1) for every series, or None to estimate
@@ -512,7 +512,7 @@ def chow_lin(indicator: pd.DataFrame, benchmarks: pd.DataFrame, *, rho: float | 
         As `denton`; too few benchmarks for the regression (estimating rho needs more years
         than coefficients); regressors collinear over the benchmark years.
     ConfigError
-        ``rho`` or ``rho_bounds`` outside (-1, 1), or an unknown ``stock_flow``.
+        ``rho`` or ``rho_bounds`` outside (-1, 1), or an unknown ``year_from_quarters``.
 
     Notes
     -----
@@ -540,7 +540,7 @@ def chow_lin(indicator: pd.DataFrame, benchmarks: pd.DataFrame, *, rho: float | 
     if rho is not None and not -1.0 < float(rho) < 1.0:
         raise ConfigError(f"rho must lie strictly between -1 and 1, not {rho!r}")
     by = key_columns(by)
-    panel = _arrange(indicator, benchmarks, by, stock_flow)
+    panel = _arrange(indicator, benchmarks, by, year_from_quarters)
     x = panel.values
     nseries = len(panel.keys)
     regressors = np.column_stack([np.ones_like(x), x]) if constant else x[:, None]
@@ -567,7 +567,7 @@ def chow_lin(indicator: pd.DataFrame, benchmarks: pd.DataFrame, *, rho: float | 
                  for kd, r, n in zip(panel.keys.to_dict("records"), rank, nobs, strict=True) if r < k and n >= need]
     if problems:
         raise InputError(problems)
-    lay = _AnnualLayout.build(years, valid, np.asarray(STOCK_FLOW[stock_flow]), xa, ya, nobs)
+    lay = _AnnualLayout.build(years, valid, np.asarray(YEAR_FROM_QUARTERS[year_from_quarters]), xa, ya, nobs)
     if rho is None:
         rhos, at_bound = _estimate_rho(lay, lo, hi, grid_step)
     else:

@@ -206,7 +206,7 @@ def benchmark_to_years(chained: pd.DataFrame, *, hierarchy: Hierarchy, annual_ra
         if len(sub):
             keys = sub[by].drop_duplicates()
             parts.append(denton(sub, bench.merge(keys, on=by), method=method,
-                                stock_flow="average" if annual_rate else "sum", on_nonpositive="additive", by=by))
+                                year_from_quarters="mean" if annual_rate else "total", on_nonpositive="additive", by=by))
     out = pd.concat(parts, ignore_index=True)[by + ["year", "quarter", "value"]]
     quarters = q.drop(columns="value").merge(out, on=by + ["year", "quarter"], how="left", validate="one_to_one")
     return sort_levels(pd.concat([a, quarters[LEVEL_COLUMNS]], ignore_index=True))

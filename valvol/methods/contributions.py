@@ -3,7 +3,7 @@
 `volume_contributions` works on a levels panel for every declared aggregate and each of its
 direct signed components, over two horizons: the previous period and the same period a
 year earlier (annual rows: the previous year, given under both horizon labels). Three
-conventions: ``two_step`` (exactly additive on annual-overlap data), ``prior_year_weights``
+conventions: ``annual_overlap_exact`` (exactly additive on annual-overlap data), ``prior_year_weights``
 (the UK agency's convention, non-additive) and ``fisher`` (chain Fisher data, additive).
 
 Contributions carry the component's sign: imports count negative when import volumes rise.
@@ -35,13 +35,13 @@ from valvol.methods.panel import (
     top_aggregates,
 )
 
-CONVENTIONS = ("two_step", "prior_year_weights", "fisher")
+CONVENTIONS = ("annual_overlap_exact", "prior_year_weights", "fisher")
 OUTPUT_COLUMNS = ["economy", "period", "frequency", "year", "quarter", "aggregate", "item", "horizon",
                   "contribution_pp", "aggregate_growth_pct", "residual_pp"]
 HORIZONS = ("prev_period", "prev_year")
 
 
-def volume_contributions(levels: pd.DataFrame, *, hierarchy: Hierarchy, convention: str = "two_step",
+def volume_contributions(levels: pd.DataFrame, *, hierarchy: Hierarchy, convention: str = "annual_overlap_exact",
                          annual_rate: bool = False) -> pd.DataFrame:
     """Contributions of each component to the volume growth of its aggregate.
 
@@ -53,7 +53,7 @@ def volume_contributions(levels: pd.DataFrame, *, hierarchy: Hierarchy, conventi
     hierarchy
         Signed aggregates; one row per aggregate, direct component, period and horizon.
     convention
-        ``two_step`` (default), ``prior_year_weights`` or ``fisher``.
+        ``annual_overlap_exact`` (default), ``prior_year_weights`` or ``fisher``.
     annual_rate
         Quarterly levels at annual rate (the annual value is the mean of the quarters).
 
@@ -80,7 +80,7 @@ def volume_contributions(levels: pd.DataFrame, *, hierarchy: Hierarchy, conventi
     s_i the sign, k at previous-year prices, K and C annual values, a = 4 (1 with
     ``annual_rate``: the quarterly average of the year is then the annual value itself).
 
-    ``two_step`` (METHODS.md 3.1-3.3, exactly additive on annual-overlap data):
+    ``annual_overlap_exact`` (METHODS.md 3.1-3.3, exactly additive on annual-overlap data):
 
     * annual: ctr_i = 100 s_i (K^i_y - C^i_{y-1}) / C^Z_{y-1};
     * quarter on quarter within a year: ctr_i = 100 s_i (k^i(s) - k^i(s-1)) / k^Z(s-1);
@@ -103,7 +103,7 @@ def volume_contributions(levels: pd.DataFrame, *, hierarchy: Hierarchy, conventi
     quarters the direct Fisher index between t_o and t, so chained data leave a residual).
 
     Sign-changing components (METHODS.md 3.6): the formulas above are level differences
-    and apply unchanged under ``two_step``; under ``prior_year_weights`` the weight and
+    and apply unchanged under ``annual_overlap_exact``; under ``prior_year_weights`` the weight and
     under ``fisher`` the price relative are those of the item's top aggregate (the
     aggregate whose deflator values it in `chain_link`).
 
@@ -143,7 +143,7 @@ def volume_contributions(levels: pd.DataFrame, *, hierarchy: Hierarchy, conventi
     codes = PanelCodes(w["economy"], [*pd.unique(w["item"]), *hierarchy.items], w["year"])
     w["sid"] = codes.sid(w["economy"], w["item"])
     w["sc"] = item_flags(w["item"], hierarchy.is_sign_changing)
-    if convention == "two_step":  # first year of a series: current values stand in for PYP
+    if convention == "annual_overlap_exact":  # first year of a series: current values stand in for PYP
         y0 = w["year"].where(w["c"].notna()).groupby(w["sid"]).transform("min")
         w["k"] = w["k"].where(w["k"].notna() | (w["year"] != y0), w["c"])
     avail = w.loc[~w["sc"] & w["c"].notna() & w["v"].notna(), ["economy", "item"]]
@@ -201,11 +201,11 @@ def _compute(convention: str, rows: pd.DataFrame, lu: Lookup, sid: np.ndarray, z
     vz_n, vz_o = lu.get("v", zsid, year, qn), lu.get("v", zsid, yo, qo)
     growth = 100.0 * (vz_n / vz_o - 1.0)
 
-    if convention == "two_step":
+    if convention == "annual_overlap_exact":
         a = 1.0 if annual_rate else 4.0
-        ctr = _two_step(lu, sid, zsid, sign, year, qn, yo, qo, a)
+        ctr = _annual_overlap_exact(lu, sid, zsid, sign, year, qn, yo, qo, a)
         # no chain-linked aggregate: the growth its annual-overlap chain would have (same formula)
-        own = _two_step(lu, zsid, zsid, np.ones_like(sign), year, qn, yo, qo, a)
+        own = _annual_overlap_exact(lu, zsid, zsid, np.ones_like(sign), year, qn, yo, qo, a)
         growth = np.where(np.isfinite(growth), growth, own)
     elif convention == "prior_year_weights":
         w_i = lu.get("c", tsid, year - 1, 0) / lu.get("v", tsid, year - 1, 0)
@@ -216,7 +216,7 @@ def _compute(convention: str, rows: pd.DataFrame, lu: Lookup, sid: np.ndarray, z
     return ctr, growth
 
 
-def _two_step(lu: Lookup, sid: np.ndarray, zsid: np.ndarray, sign: np.ndarray, year: np.ndarray,
+def _annual_overlap_exact(lu: Lookup, sid: np.ndarray, zsid: np.ndarray, sign: np.ndarray, year: np.ndarray,
               qn: np.ndarray, yo: np.ndarray, qo: np.ndarray, a: float) -> np.ndarray:
     """METHODS.md 3.1-3.3: annual, within-year and two-step (year-boundary) contributions."""
     k_n, k_o = lu.get("k", sid, year, qn), lu.get("k", sid, yo, qo)

@@ -4,7 +4,7 @@ Two families, both with the layout of the volume contributions (one row per aggr
 direct component, period and horizon; percentage points; imports negative):
 
 * `deflator_contributions`: expenditure side, from current and previous-year-price data
-  (``two_step``) or from chain Fisher data (``fisher``);
+  (``annual_overlap_exact``) or from chain Fisher data (``fisher``);
 * `income_side_contributions`: unit labour costs, unit profits, unit net taxes and the
   unit discrepancy, whose sum is the GDP deflator.
 
@@ -21,7 +21,7 @@ from valvol.frames import period_label
 from valvol.hierarchy import Hierarchy
 from valvol.methods.deflators import _label, _raise_non_positive, pivot_bases, with_horizons
 
-CONVENTIONS: tuple[str, ...] = ("two_step", "fisher")
+CONVENTIONS: tuple[str, ...] = ("annual_overlap_exact", "fisher")
 CONTRIBUTION_COLUMNS = [
     "economy", "period", "frequency", "year", "quarter", "aggregate", "item", "horizon",
     "contribution_pp", "aggregate_growth_pct", "residual_pp",
@@ -122,19 +122,19 @@ def fisher_price_contributions_arrays(
 
 
 def deflator_contributions(
-    levels: pd.DataFrame, *, hierarchy: Hierarchy, convention: str = "two_step"
+    levels: pd.DataFrame, *, hierarchy: Hierarchy, convention: str = "annual_overlap_exact"
 ) -> pd.DataFrame:
     """Contributions of each direct component to the growth of an aggregate's deflator.
 
     Parameters
     ----------
     levels
-        Levels panel with ``current``, ``previous_year`` (``two_step``) and ``chain_linked``
+        Levels panel with ``current``, ``previous_year`` (``annual_overlap_exact``) and ``chain_linked``
         rows for the aggregates and their components.
     hierarchy
         Signed aggregates; sign-changing aggregates are skipped.
     convention
-        ``"two_step"`` (previous-year-price data chained by annual overlap) or ``"fisher"``
+        ``"annual_overlap_exact"`` (previous-year-price data chained by annual overlap) or ``"fisher"``
         (chain Fisher data).
 
     Returns
@@ -159,7 +159,7 @@ def deflator_contributions(
 
     Notes
     -----
-    ``two_step`` (METHODS.md 4.1, P = c/k on the previous-year base, s_i the sign, Z the
+    ``annual_overlap_exact`` (METHODS.md 4.1, P = c/k on the previous-year base, s_i the sign, Z the
     aggregate): annual ctr_i = 100 s_i (C^i_y - K^i_y)/K^Z_y; within a year
     ctr_i = 100 s_i [c^i(s)/k^Z(s) - c^i(s-1)/k^Z(s-1)]/P^Z(s-1); across the year boundary
     and year on year ctr_i = d1_i + (1 + G1) d2_i with
@@ -197,7 +197,7 @@ def deflator_contributions(
         out = _fisher(wide, edges, hierarchy)
     else:
         _raise_non_positive(aggs, ("current", "previous_year"))
-        out = _two_step(wide, edges)
+        out = _annual_overlap_exact(wide, edges)
     return _finish(out)
 
 
@@ -271,7 +271,7 @@ def income_side_contributions(levels: pd.DataFrame, *, real_gdp_item: str = "B1G
     return _finish(h)
 
 
-def _two_step(wide: pd.DataFrame, edges: pd.DataFrame) -> pd.DataFrame:
+def _annual_overlap_exact(wide: pd.DataFrame, edges: pd.DataFrame) -> pd.DataFrame:
     """Two-step contributions for every (aggregate, component, period, horizon)."""
     series = wide[_SERIES].assign(c=wide["current"], k=wide["previous_year"])
     steps = step_values(series.dropna(subset=["c", "k"]))

@@ -220,7 +220,9 @@ def top_aggregates(hierarchy: Hierarchy, series: pd.DataFrame, available: pd.Dat
     """The aggregate whose deflator values each sign-changing series.
 
     Climbs the hierarchy from the item and takes the highest positive ancestor that has
-    data in the item's economy (``available``: columns economy, item).
+    data in the item's economy (``available``: columns economy, item). A breakdown that the
+    hierarchy does not declare (``P52_PRIV``) climbs from the code it breaks down (``P52``),
+    which is itself a candidate when positive.
 
     Returns
     -------
@@ -230,7 +232,13 @@ def top_aggregates(hierarchy: Hierarchy, series: pd.DataFrame, available: pd.Dat
     if series.empty or available.empty:
         return pd.DataFrame({c: pd.Series(dtype="str") for c in ("economy", "item", "top")})
     anc = _positive_ancestors(hierarchy)
-    cand = series[["economy", "item"]].drop_duplicates().merge(anc, on="item")
+    cand = series[["economy", "item"]].drop_duplicates()
+    anchors = {i: hierarchy.anchor(i) for i in pd.unique(cand["item"])}
+    cand = cand.assign(anchor=cand["item"].map(anchors))
+    own = cand[(cand["anchor"] != cand["item"]) & cand["anchor"].notna()]
+    own = own.assign(top=own["anchor"], distance=0)
+    own = own[~own["top"].map(hierarchy.is_sign_changing).astype(bool)]
+    cand = pd.concat([cand.merge(anc.rename(columns={"item": "anchor"}), on="anchor"), own], ignore_index=True)
     avail = available[["economy", "item"]].drop_duplicates().rename(columns={"item": "top"})
     cand = cand.merge(avail, on=["economy", "top"])
     cand = cand.sort_values(["economy", "item", "distance", "top"], ascending=[True, True, False, True])

@@ -33,7 +33,7 @@ import scipy.sparse as sp
 from valvol.errors import ConfigError, InputError, Problem
 from valvol.methods.benchmark import (
     ON_NONPOSITIVE,
-    STOCK_FLOW,
+    YEAR_FROM_QUARTERS,
     check_choice,
     difference_gram,
     key_columns,
@@ -171,7 +171,7 @@ def _nonpositive_error(lay: _Layout, z: np.ndarray, bad: np.ndarray) -> InputErr
 
 def reconcile(components: pd.DataFrame, signs: Mapping[str, int], total: pd.DataFrame, annual: pd.DataFrame,
               *, fixed: Iterable[str] = (), discrepancy: pd.DataFrame | None = None,
-              method: str = "proportional_denton", stock_flow: str = "sum", on_nonpositive: str = "additive",
+              method: str = "proportional_denton", year_from_quarters: str = "total", on_nonpositive: str = "additive",
               tolerance: float = 1e-6, by: str | Sequence[str] = (), total_item: str = "total",
               additive: Iterable[str] = ()) -> ReconcileResult:
     """Make quarterly components match their annual benchmarks and add up to the total each quarter.
@@ -189,9 +189,9 @@ def reconcile(components: pd.DataFrame, signs: Mapping[str, int], total: pd.Data
     method
         ``"proportional_denton"`` (multivariate proportional first-difference Denton) or
         ``"wls"`` (weighted least squares, V = diag(x^2)).
-    stock_flow
-        How quarters aggregate to the annual benchmarks and to the annual total: ``"sum"``,
-        ``"average"``, ``"last"``, ``"first"`` (as in `valvol.methods.benchmark.denton`).
+    year_from_quarters
+        How quarters aggregate to the annual benchmarks and to the annual total: ``"total"``,
+        ``"mean"``, ``"q4"``, ``"q1"`` (as in `valvol.methods.benchmark.denton`).
     additive
         Component series whose first differences are preserved instead of their movements in
         proportion (proportional Denton only), whatever their sign: items that change sign,
@@ -273,7 +273,7 @@ def reconcile(components: pd.DataFrame, signs: Mapping[str, int], total: pd.Data
     """
     check_choice("method", method, RECONCILE_METHODS)
     check_choice("on_nonpositive", on_nonpositive, ON_NONPOSITIVE)
-    check_choice("stock_flow", stock_flow, tuple(STOCK_FLOW))
+    check_choice("year_from_quarters", year_from_quarters, tuple(YEAR_FROM_QUARTERS))
     by = key_columns(by)
     key = by + ["series"]
     require_columns(components, key + ["year", "quarter", "value"], "components")
@@ -295,7 +295,7 @@ def reconcile(components: pd.DataFrame, signs: Mapping[str, int], total: pd.Data
     sign_e = names.map({str(k): float(v) for k, v in signs.items()}).to_numpy()[sid]
     fixed_s = names.isin(fixed).to_numpy()
     free_e = ~fixed_s[sid]
-    w = np.asarray(STOCK_FLOW[stock_flow])
+    w = np.asarray(YEAR_FROM_QUARTERS[year_from_quarters])
     nz = np.flatnonzero(w)
 
     # quarterly total and discrepancy
@@ -421,7 +421,7 @@ def reconcile(components: pd.DataFrame, signs: Mapping[str, int], total: pd.Data
         raise InputError([
             series_problem(lay.systems.iloc[k // span].to_dict() | {"series": total_item}, str(ymin + k % span),
                            f"inconsistent constraints: the signed annual benchmarks (with fixed series and "
-                           f"discrepancy) come to {agg_total[k] + gap[k]:.10g} but the {stock_flow} of the "
+                           f"discrepancy) come to {agg_total[k] + gap[k]:.10g} but the {year_from_quarters} of the "
                            f"quarterly {total_item} is {agg_total[k]:.10g}: gap {gap[k]:+.6g} "
                            f"({100 * gap[k] / scale_y[k]:+.4g}% of the total)")
             for k in bad_keys])
