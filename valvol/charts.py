@@ -13,6 +13,7 @@ For each chosen economy:
 
 from __future__ import annotations
 
+import logging
 from pathlib import Path
 
 import matplotlib
@@ -23,6 +24,8 @@ matplotlib.rcParams["svg.hashsalt"] = "valvol"  # identical SVG files on rerun
 import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402
 import pandas as pd  # noqa: E402
+
+log = logging.getLogger("valvol")
 
 #: Colour-blind-safe palette (Okabe & Ito, "Color Universal Design", 2008).
 PALETTE = ["#0072B2", "#E69F00", "#009E73", "#D55E00", "#CC79A7", "#56B4E9", "#F0E442", "#999999"]
@@ -129,6 +132,8 @@ def draw_charts(tables_dir: Path, economies: list[str] | None = None, limit: int
             for t in ("deflator_contributions", "growth", "price_gaps", "deflators")}
     known = sorted(read["deflators"]["economy"].unique())
     chosen = known if economies is None else [e for e in economies if e in known]
+    for economy in sorted(set(economies or ()) - set(known)):
+        log.warning("--charts: no accounts of economy %s, no chart drawn for it", economy)
     if economies is None and len(known) > limit:
         return []
     out_dir = tables_dir / "charts"

@@ -120,9 +120,10 @@ def _run_flow(accounts: Path, out: Path, dask: str | None, options: dict):
 
     from valvol import pipeline, prefect_env
     from valvol.config import load_config
-    from valvol.io.publish import output_lock
+    from valvol.io.publish import check_output_folder, output_lock
 
-    load_config(accounts)  # a bad config or label, or a busy output folder, stops before Prefect starts
+    check_output_folder(accounts, out)  # a misplaced output folder, a bad config or label, or a busy
+    load_config(accounts)  # output folder stops before Prefect starts
     pipeline.rebuild_options(options["label"], options["charts"], options["chart_economies"])
     with output_lock(out):
         pass

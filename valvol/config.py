@@ -33,6 +33,7 @@ Example ``valvol.toml``::
 
 from __future__ import annotations
 
+import math
 import tomllib
 from dataclasses import dataclass, field, fields
 from pathlib import Path
@@ -40,6 +41,7 @@ from typing import Any
 
 from valvol.errors import ConfigError
 from valvol.hierarchy import DEFAULT_AGGREGATES, ITEM_CODE, Hierarchy
+from valvol.io.text import NotUTF8, decode_utf8
 
 CONFIG_FILE = "valvol.toml"
 
@@ -176,9 +178,13 @@ def load_config(accounts_dir: str | Path) -> Config:
     if not path.exists():
         return Config()
     try:
-        raw = tomllib.loads(path.read_text(encoding="utf-8"))
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        raw = tomllib.loads(decode_utf8(path.read_bytes()))
+    except NotUTF8 as exc:
+        raise ConfigError(exc.reason, file=str(path)) from None
+    except tomllib.TOMLDecodeError as exc:
         raise ConfigError(f"not valid TOML: {exc}", file=str(path)) from None
+    except OSError as exc:
+        raise ConfigError(f"cannot be read: {exc.strerror or exc}", file=str(path)) from None
     return config_from_mapping(raw, source=str(path))
 
 
@@ -198,13 +204,16 @@ def config_from_mapping(raw: dict[str, Any], *, source: str = "") -> Config:
     aggregates = raw.get("aggregates", DEFAULT_AGGREGATES)
     if not isinstance(aggregates, dict):
         raise ConfigError("[aggregates] must be a table of code = [components]", file=source)
+    for code, comps in aggregates.items():
+        if not isinstance(comps, list):
+            raise ConfigError(f"[aggregates] {code} must be a list of component codes, got {comps!r}", file=source)
     sign_changing = raw.get("sign_changing", [])
-    if not isinstance(sign_changing, list) or not all(isinstance(s, str) and ITEM_CODE.match(s)
+    if not isinstance(sign_changing, list) or not all(isinstance(s, str) and ITEM_CODE.fullmatch(s)
                                                        for s in sign_changing):
         raise ConfigError(f"sign_changing must be a list of item codes (e.g. [\"P52_PRIV\"]), got {sign_changing!r}",
                           file=source)
     indexes = raw.get("price_indexes", ["CPI"])
-    if not isinstance(indexes, list) or not all(isinstance(s, str) and ITEM_CODE.match(s) for s in indexes):
+    if not isinstance(indexes, list) or not all(isinstance(s, str) and ITEM_CODE.fullmatch(s) for s in indexes):
         raise ConfigError("price_indexes must be a list of item codes", file=source)
     try:
         hierarchy = Hierarchy.from_mapping(aggregates, sign_changing)
@@ -236,6 +245,10 @@ def _check_adjustments(b: BenchmarkConfig, r: ReconcileConfig, hierarchy: Hierar
     for where, chosen in (("[benchmark]", b.price_bases), ("[reconcile]", r.price_bases)):
         if set(chosen) - set(bases):
             raise ConfigError(f"{where} price_bases must be among {', '.join(bases)}, got {list(chosen)}", file=source)
+    for where, name in (("[benchmark] benchmarks", b.benchmarks), ("[reconcile] benchmarks", r.benchmarks)):
+        if name and (Path(name).is_absolute() or ".." in Path(name).parts or "\0" in name):
+            raise ConfigError(f"{where} must be a path inside the accounts folder (relative, without '..'), "
+                              f"got {name!r}", file=source)
     if b.benchmarks and r.benchmarks and b.benchmarks != r.benchmarks:
         raise ConfigError("[benchmark] and [reconcile] name different benchmarks files; use one", file=source)
     if r.aggregate and not r.components and r.aggregate not in hierarchy.aggregates:
@@ -263,15 +276,16 @@ def _section(raw: Any, cls: type, name: str, source: str) -> Any:
                 raise ConfigError(f"[{name}] {key} must be a list of codes, got {value!r}", file=source)
             value = tuple(value)
         elif default is None:  # an optional number (e.g. a fixed Chow-Lin rho)
-            if isinstance(value, bool) or not isinstance(value, int | float) or not -1 < value < 1:
+            if isinstance(value, bool) or not isinstance(value, int | float) or not -1 < value < 1:  # NaN fails
                 raise ConfigError(f"[{name}] {key} must be a number between -1 and 1, got {value!r}", file=source)
             value = float(value)
         elif isinstance(default, int) and not isinstance(default, bool):  # a year; 0 = automatic
             if isinstance(value, bool) or not isinstance(value, int) or not (value == 0 or 1000 <= value <= 9999):
                 raise ConfigError(f"[{name}] {key} must be a four-digit year, got {value!r}", file=source)
         elif isinstance(default, float):
-            if isinstance(value, bool) or not isinstance(value, int | float) or value < 0:
-                raise ConfigError(f"[{name}] {key} must be a non-negative number, got {value!r}", file=source)
+            if isinstance(value, bool) or not isinstance(value, int | float) or not (0 <= value < math.inf):
+                raise ConfigError(f"[{name}] {key} must be a finite non-negative number, got {value!r}",
+                                  file=source)
             value = float(value)
         elif isinstance(default, str):
             choices = _CHOICES.get((name, key))

@@ -27,15 +27,39 @@ class Problem:
     reason: str = ""
 
     def render(self) -> str:
-        """One line: ``file:row economy/item/price_basis/period: reason``."""
-        where = self.file or "<accounts>"
+        """One line: ``file:row economy/item/price_basis/period: reason``.
+
+        Fields are shown printable and clipped (`clip`): a hostile or broken cell (a NUL
+        byte, a 10 MB code) never floods the terminal or breaks the one-line form.
+        """
+        where = clip(self.file, 200) if self.file else "<accounts>"
         if self.row is not None:
             where += f":{self.row}"
-        series = "/".join(x for x in (self.economy, self.item, self.price_basis, self.period) if x)
-        return f"{where} {series}: {self.reason}" if series else f"{where}: {self.reason}"
+        series = "/".join(clip(x, 40) for x in (self.economy, self.item, self.price_basis, self.period) if x)
+        reason = clip(self.reason, 600)
+        return f"{where} {series}: {reason}" if series else f"{where}: {reason}"
 
     def as_dict(self) -> dict[str, object]:
         return asdict(self)
+
+
+def clip(text: str, limit: int = 60) -> str:
+    """``text`` with unprintable characters escaped, cut to ``limit`` characters and its length shown.
+
+    >>> clip("XQ\\x00")
+    'XQ\\\\x00'
+    >>> clip("P" + "A" * 99, 8)
+    'PAAAAAAA... (100 characters)'
+    """
+    text = str(text)
+    shown = text if text.isprintable() else "".join(c if c.isprintable() else repr(c)[1:-1] for c in text)
+    return shown if len(shown) <= limit else f"{shown[:limit]}... ({len(text)} characters)"
+
+
+def found(text: object, limit: int = 60) -> str:
+    """A cell as written, for a message: quoted, printable, clipped (``found 'abc'``)."""
+    text = str(text)
+    return repr(text) if len(text) <= limit else f"{text[:limit]!r}... ({len(text)} characters)"
 
 
 class ValvolError(Exception):
@@ -51,7 +75,8 @@ class ConfigError(ValvolError):
 
     def __init__(self, message: str, *, file: str = "") -> None:
         self.file = file
-        super().__init__(f"{file}: {message}" if file else message)
+        message = clip(message, 1000)  # a value quoted back may be huge or hold control characters
+        super().__init__(f"{clip(file, 200)}: {message}" if file else message)
 
 
 class InputError(ValvolError):

@@ -102,7 +102,7 @@ class Hierarchy:
         """Build from ``{"B1GQ": ["P3", "-P7", ...]}``; raise ConfigError if malformed."""
         aggs: dict[str, tuple[Component, ...]] = {}
         for agg, comps in spec.items():
-            if not isinstance(agg, str) or not ITEM_CODE.match(agg):
+            if not isinstance(agg, str) or not ITEM_CODE.fullmatch(agg):
                 raise ConfigError(f"aggregate code {agg!r} is not of the form of an SNA code")
             if isinstance(comps, str) or not isinstance(comps, Iterable):
                 raise ConfigError(f"aggregate {agg}: components must be a list of codes")
@@ -112,7 +112,7 @@ class Hierarchy:
                     raise ConfigError(f"aggregate {agg}: component {raw!r} is not a string")
                 sign = -1 if raw.startswith("-") else 1
                 code = raw.lstrip("+-")
-                if not ITEM_CODE.match(code):
+                if not ITEM_CODE.fullmatch(code):
                     raise ConfigError(f"aggregate {agg}: component {raw!r} is not of the form of an SNA code")
                 if code == agg:
                     raise ConfigError(f"aggregate {agg} lists itself as a component")

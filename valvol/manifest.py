@@ -18,7 +18,7 @@ from pathlib import Path
 
 from valvol import __version__
 from valvol.config import CONFIG_FILE, Config
-from valvol.errors import ConfigError
+from valvol.errors import ConfigError, found
 from valvol.io.publish import sha256_file
 from valvol.io.readers import account_files
 
@@ -90,9 +90,20 @@ LABEL = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.-]{0,39}$")
 
 def check_label(label: str | None) -> str | None:
     """A vintage label, checked: 1-40 characters of A-Z, a-z, 0-9, _ . - (ConfigError otherwise)."""
-    if label is not None and not LABEL.match(label):
-        raise ConfigError(f"vintage label {label!r}: use 1-40 characters of A-Z, a-z, 0-9, _ . -")
+    if label is not None and not LABEL.fullmatch(label):
+        raise ConfigError(f"--label: vintage label {found(label)}: use 1-40 characters of A-Z, a-z, 0-9, _ . -")
     return label
+
+
+def check_chart_economies(economies: list[str] | None) -> list[str] | None:
+    """Economy codes asked for with ``--charts``, checked like economy codes of the accounts (ConfigError)."""
+    from valvol.schemas.input import ECONOMY_PATTERN
+
+    for code in economies or ():
+        if not isinstance(code, str) or not re.fullmatch(ECONOMY_PATTERN, code):
+            raise ConfigError(f"--charts: economy code {found(code)} must be 2-16 characters of A-Z, 0-9, _ "
+                              "(comma-separated, e.g. XQ,XR)")
+    return economies
 
 
 def vintage_name(now: datetime, fp: str, label: str | None) -> str:

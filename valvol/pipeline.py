@@ -36,7 +36,14 @@ from valvol.config import Config, load_config
 from valvol.errors import InputError, Problem
 from valvol.io import publish as pub
 from valvol.io.readers import read_accounts
-from valvol.validate import duplicate_keys, identity_problems, parse_rows, period_gaps, row_problems
+from valvol.validate import (
+    duplicate_keys,
+    identity_problems,
+    locate_problems,
+    parse_rows,
+    period_gaps,
+    row_problems,
+)
 
 log = logging.getLogger("valvol")
 
@@ -117,6 +124,7 @@ def stage_accounts(con, rows: pd.DataFrame, config: Config) -> None:
     db.run_sql(con, "int_annual_vs_quarters", annual_rate=config.levels_at_annual_rate, **tol)
 
 
+@locate_problems(ROWS_FILE)
 def validate(accounts_dir: str | Path, work: str | Path, config: Config | None = None) -> list[str]:
     """Check the parsed rows against the input contract; return the economies found.
 
@@ -175,6 +183,7 @@ def validate(accounts_dir: str | Path, work: str | Path, config: Config | None =
     return economies
 
 
+@locate_problems(ROWS_FILE)
 def reconcile(accounts_dir: str | Path, work: str | Path, config: Config | None = None) -> Path:
     """Benchmark and reconcile the validated rows as ``[benchmark]`` and ``[reconcile]`` ask.
 
@@ -205,6 +214,7 @@ def _typed_report(report: pd.DataFrame) -> pd.DataFrame:
     return report.astype({**{c: "float64" for c in floats}, **{c: "str" for c in text}})
 
 
+@locate_problems(ROWS_FILE)
 def derive_economy(accounts_dir: str | Path, work: str | Path, economy: str, config: Config | None = None) -> Path:
     """Derive every table of one economy in its own DuckDB file; write its tables as parquet."""
     from valvol import derive as steps
@@ -313,9 +323,9 @@ def publish(work: str | Path, out_dir: str | Path) -> Path:
 
 def rebuild_options(label: str | None, charts: bool, chart_economies: list[str] | None) -> dict:
     """The rebuild options that shape a vintage (part of its fingerprint); checks the label."""
-    from valvol.manifest import check_label
+    from valvol.manifest import check_chart_economies, check_label
 
-    return {"label": check_label(label), "charts": charts, "chart_economies": chart_economies}
+    return {"label": check_label(label), "charts": charts, "chart_economies": check_chart_economies(chart_economies)}
 
 
 def unchanged_since_latest(accounts_dir: str | Path, out_dir: str | Path, config: Config,
@@ -406,6 +416,7 @@ def session(accounts_dir: str | Path, out_dir: str | Path, *, force: bool = Fals
     if not Path(accounts_dir).is_dir():
         raise InputError([Problem(file=str(accounts_dir), reason="accounts folder does not exist")])
     out_dir = Path(out_dir)
+    pub.check_output_folder(accounts_dir, out_dir)  # before anything is written
     with pub.output_lock(out_dir):
         config = load_config(accounts_dir)
         same = None if force else unchanged_since_latest(accounts_dir, out_dir, config, options)

@@ -236,27 +236,25 @@ def _identity_checks(resid: pd.DataFrame, aggregate: str) -> pd.DataFrame:
 
 def _benchmark_file(accounts_dir: Path, config: Config) -> pd.DataFrame | None:
     """Annual benchmarks from the configured file (input format, years only), or None."""
-    from valvol.io.readers import READERS
+    from valvol.io.readers import READERS, read_file
     from valvol.validate import parse_rows, row_problems
 
     name = config.benchmark.benchmarks or config.reconcile.benchmarks
     if not name:
         return None
+    key = "[benchmark] benchmarks" if config.benchmark.benchmarks else "[reconcile] benchmarks"
     path = Path(accounts_dir) / name
     if not path.is_file() or path.suffix.lower() not in READERS:
-        raise ConfigError(f"benchmarks file {name} not found (a .csv or .parquet file, relative to the accounts folder)")
+        raise ConfigError(f"{key}: file {name} not found (a .csv or .parquet file, relative to the accounts "
+                          "folder)", file=config.source)
     if path.parent.resolve() == Path(accounts_dir).resolve():
-        raise ConfigError(f"benchmarks file {name} must sit in a sub-folder: every file of the accounts folder "
-                          "is read as accounts")
-    raw, first = READERS[path.suffix.lower()](path)
-    raw.columns = [str(c).strip().lower() for c in raw.columns]
-    for col in ("adjustment", "unit"):
-        if col not in raw:
-            raw[col] = ""
-    raw.insert(0, "source_row", np.arange(first, first + len(raw), dtype="int64"))
-    raw.insert(0, "source_file", name)
-    rows = parse_rows(raw.astype({c: "str" for c in raw.columns if c != "source_row"}))
-    problems = row_problems(rows, config)
+        raise ConfigError(f"{key}: file {name} must sit in a sub-folder: every file of the accounts folder "
+                          "is read as accounts", file=config.source)
+    raw, problems = read_file(path, name)
+    if raw is None:
+        raise InputError(problems)
+    rows = parse_rows(raw)
+    problems += row_problems(rows, config)
     problems += [Problem(file=name, row=int(r.source_row), economy=r.economy, item=r.item, period=r.period,
                          reason="benchmarks must be years (YYYY)") for r in rows[rows["frequency"] != "A"].itertuples()]
     if problems:

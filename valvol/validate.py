@@ -8,17 +8,25 @@ contiguous periods (`period_gaps`), identities (`identity_problems`).
 
 from __future__ import annotations
 
+import functools
+from collections.abc import Callable
+from pathlib import Path
+from typing import TypeVar
+
 import numpy as np
 import pandas as pd
 import pandera.pandas as pa
 
 from valvol.config import Config
-from valvol.errors import Problem, ValvolError
+from valvol.errors import InputError, Problem, ValvolError, found
 from valvol.periods import parse_periods, quarter_index
 from valvol.schemas import input as input_schema
 from valvol.schemas.outputs import identity_residuals
 
 _LOCATE = ["source_file", "source_row", "economy", "item", "period_text", "price_basis"]
+
+#: The cell a rule across columns is about (by the start of its message), shown as written; default the value.
+_SHOWN = {"monthly periods": "period_text", "price_basis index": "price_basis"}
 
 
 class StageError(ValvolError):
@@ -64,10 +72,12 @@ def _problems_from_failures(cases: pd.DataFrame, locate: pd.DataFrame) -> list[P
             continue
         row = locate.loc[case.index]
         if case.schema_context == "DataFrameSchema" or column in ("value", "value_text"):
-            shown = row.get("value_text", case.failure_case)  # rules about the value: show it as written
+            # rules about the value: show it as written (rules about another cell: that cell)
+            cell = next((c for start, c in _SHOWN.items() if reason.startswith(start)), "value_text")
+            shown = row.get(cell, case.failure_case)
         else:
             shown = case.failure_case
-        problems.append(_problem(row, f"{reason} (found {shown!r})"))
+        problems.append(_problem(row, f"{reason} (found {found(shown)})"))
     return problems
 
 
@@ -98,13 +108,21 @@ def duplicate_keys(rows: pd.DataFrame) -> list[Problem]:
     dup = rows[rows.duplicated(key, keep=False)]
     if dup.empty:
         return []
-    first = dup.drop_duplicates(key)[key + ["source_file", "source_row"]]
+    cols = ["source_file", "source_row"] + (["period_text"] if "period_text" in rows else [])
+    first = dup.drop_duplicates(key)[key + cols]
     later = dup[dup.duplicated(key, keep="first")].merge(first, on=key, suffixes=("", "_first"))
     return [
         _problem(r, f"duplicate of {r['source_file_first']}:{r['source_row_first']} (same economy, item, "
-                    "price_basis and period)")
+                    "price_basis and period" + _written(r) + ")")
         for _, r in later.iterrows()
     ]
+
+
+def _written(r: pd.Series) -> str:
+    """Two spellings of one period (``2020Q1`` and ``2020-Q1``) make one key: say so."""
+    if "period_text" not in r or r["period_text"] == r["period_text_first"]:
+        return ""
+    return f"; the period is written {found(r['period_text_first'])} there and {found(r['period_text'])} here"
 
 
 def period_gaps(rows: pd.DataFrame) -> list[Problem]:
@@ -149,3 +167,66 @@ def identity_problems(residuals: pd.DataFrame, what: str) -> list[Problem]:
                 reason=f"{what}: residual {r.residual:.6g} beyond tolerance {r.tolerance:.6g}")
         for r in bad.itertuples(index=False)
     ]
+
+
+F = TypeVar("F", bound=Callable)
+
+
+def locate_problems(rows_file: str) -> Callable[[F], F]:
+    """Decorate a stage ``f(accounts_dir, work, ...)``: its `InputError` problems gain file and row.
+
+    Problems found on derived panels (a zero volume, a broken identity, quarters that do not
+    add to the year) name economy, item, price basis and period; `locate` adds the file and
+    row of the input row of ``work/rows_file`` they are about, or the file of their series.
+    """
+    def decorate(stage: F) -> F:
+        @functools.wraps(stage)
+        def run(accounts_dir, work, *args, **kwargs):
+            try:
+                return stage(accounts_dir, work, *args, **kwargs)
+            except InputError as err:
+                path = Path(work) / rows_file
+                if not path.exists():
+                    raise
+                raise InputError(locate(err.problems, pd.read_parquet(path))) from None
+        return run  # type: ignore[return-value]
+    return decorate
+
+
+def locate(problems: list[Problem], rows: pd.DataFrame) -> list[Problem]:
+    """``problems`` with file and row filled in from the input rows they are about.
+
+    Where exactly one input row has the problem's key (economy, item, price_basis, period;
+    without price_basis when the problem names none), the problem gets its file and row;
+    otherwise, where every row of the series comes from one file (a value derived from
+    them, e.g. a year from its quarters), that file. Problems naming a file stay as they are.
+    """
+    key = ["economy", "item", "price_basis", "period"]
+    if rows.empty or not any(not p.file and p.economy and p.item for p in problems):
+        return problems
+    rows = rows[key + ["source_file", "source_row"]]
+    short = ["economy", "item", "period"]
+    exact, exact_short = _lookup(rows, key, one_row=True), _lookup(rows, short, one_row=True)
+    files, files_short = _lookup(rows, key[:3], one_row=False), _lookup(rows, key[:2], one_row=False)
+    out = []
+    for p in problems:
+        if not p.file and p.economy and p.item:
+            basis = (p.price_basis,) if p.price_basis else ()
+            hit = (exact if basis else exact_short).get((p.economy, p.item, *basis, p.period))
+            if hit is not None:
+                p = Problem(**{**p.as_dict(), "file": str(hit[0]), "row": int(hit[1])})
+            elif (series := (files if basis else files_short).get((p.economy, p.item, *basis))) is not None:
+                p = Problem(**{**p.as_dict(), "file": str(series[0])})
+        out.append(p)
+    return out
+
+
+def _lookup(rows: pd.DataFrame, cols: list[str], *, one_row: bool) -> dict[tuple, tuple[str, int]]:
+    """Keys ``cols`` held by exactly one row (``one_row``) or by rows of one file -> (file, row)."""
+    if one_row:
+        one = rows.drop_duplicates(cols, keep=False)
+    else:
+        files = rows.groupby(cols, sort=False)["source_file"].transform("nunique")
+        one = rows[files == 1].drop_duplicates(cols)
+    keys = zip(*(one[c] for c in cols), strict=True)
+    return dict(zip(keys, zip(one["source_file"], one["source_row"], strict=True), strict=True))

@@ -27,7 +27,7 @@ from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
 
-from valvol.errors import OutputBusyError, PublishError
+from valvol.errors import ConfigError, OutputBusyError, PublishError
 
 STAGING = ".staging"
 VINTAGES = "vintages"
@@ -43,11 +43,51 @@ def sha256_file(path: Path) -> str:
     return h.hexdigest()
 
 
+def check_output_folder(accounts_dir: str | Path, out_dir: str | Path) -> None:
+    """Refuse an output root a rebuild must not write to, before anything is written (ConfigError).
+
+    The output folder must differ from the accounts folder and lie neither inside it nor
+    around it: tables published at the top of the accounts folder would be read as accounts
+    by the next rebuild, and a rebuild must never write where its inputs are. It must be a
+    folder (or not exist yet) under a folder that can be created.
+    """
+    accounts, out = Path(accounts_dir), Path(out_dir)
+    if "\0" in str(out):
+        raise ConfigError(f"--out: output folder {str(out)!r} holds a NUL character")
+    try:
+        a, o = accounts.resolve(), out.resolve()
+    except (OSError, RuntimeError) as exc:  # a symbolic-link loop, a name too long
+        reason = getattr(exc, "strerror", None) or exc
+        raise ConfigError(f"--out: output folder {out} cannot be used: {reason}") from None
+    both = f"(output folder {out}, accounts folder {accounts})"
+    if o == a:
+        raise ConfigError(f"--out: the output folder is the accounts folder {both}; choose a folder outside it")
+    if o.is_relative_to(a):
+        raise ConfigError(f"--out: the output folder lies inside the accounts folder {both}; choose a folder "
+                          "outside it")
+    if a.is_relative_to(o):
+        raise ConfigError(f"--out: the output folder contains the accounts folder {both}; choose a folder "
+                          "beside it")
+    try:
+        if o.exists() and not o.is_dir():
+            raise ConfigError(f"--out: output folder {out} exists and is not a folder")
+        for parent in o.parents:  # the nearest existing ancestor must be a folder
+            if parent.exists():
+                if not parent.is_dir():
+                    raise ConfigError(f"--out: output folder {out} cannot be created: {parent} is not a folder")
+                break
+    except OSError as exc:  # a name too long, no permission to look
+        raise ConfigError(f"--out: output folder {out} cannot be used: {exc.strerror or exc}") from None
+
+
 @contextmanager
 def output_lock(out_dir: Path) -> Iterator[None]:
     """Hold the output root's lock for one rebuild; fail at once if another rebuild holds it."""
-    out_dir.mkdir(parents=True, exist_ok=True)
-    fh = (out_dir / ".lock").open("a+")
+    try:
+        out_dir.mkdir(parents=True, exist_ok=True)
+        fh = (out_dir / ".lock").open("a+")
+    except OSError as exc:  # read-only, no permission, a file in the way, a name too long
+        raise ConfigError(f"--out: output folder {out_dir} cannot be written: {exc.strerror or exc}") from None
     try:
         fcntl.flock(fh, fcntl.LOCK_EX | fcntl.LOCK_NB)
     except BlockingIOError:

@@ -5,38 +5,106 @@ item, price_basis, value, adjustment, unit`` plus ``source_file`` (path
 relative to the folder) and ``source_row`` (the line number in a CSV file,
 header = line 1; the 1-based row number in a parquet file). Adding a format is
 adding a function to `READERS`.
+
+Whatever a file holds, reading it never raises: a file that cannot be decoded or
+parsed, a header with missing, unknown or repeated columns, a line with too many or
+too few cells, a file without data rows: each is a located `Problem`.
 """
 
 from __future__ import annotations
 
+import csv
+import io
+import math
 from collections.abc import Callable
 from pathlib import Path
 
 import pandas as pd
-import pyarrow as pa
 import pyarrow.parquet as pq
 
-from valvol.errors import Problem
+from valvol.errors import Problem, clip, found
+from valvol.io.text import NotUTF8, decode_utf8
 
 REQUIRED = ("economy", "period", "item", "price_basis", "value")
 OPTIONAL = ("adjustment", "unit")
 RAW_COLUMNS = ["source_file", "source_row", *REQUIRED, *OPTIONAL]
 
+#: A reader: (path, name shown in problems) -> text frame of the file's columns plus ``source_row``
+#: (None when the file cannot be read at all), and the problems met.
+Reader = Callable[[Path, str], tuple[pd.DataFrame | None, list[Problem]]]
 
-def _read_csv(path: Path) -> tuple[pd.DataFrame, int]:
+
+def _read_csv(path: Path, name: str) -> tuple[pd.DataFrame | None, list[Problem]]:
+    """Comma-separated UTF-8 text; ``source_row`` is the line on which each record starts.
+
+    Blank lines (and lines of empty cells) are skipped without shifting line numbers; a line
+    whose cells do not match the header in number is a problem of that line.
+    """
+    try:
+        text = decode_utf8(path.read_bytes())
+    except NotUTF8 as exc:
+        return None, [Problem(file=name, row=exc.line, reason=exc.reason)]
     # keep every cell as text: numbers are parsed later, where a bad one can be located
-    df = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True, encoding="utf-8")
-    return df, 2
+    reader = csv.reader(io.StringIO(text, newline=""), skipinitialspace=True, strict=True)
+    header: list[str] | None = None
+    records: list[list[str]] = []
+    lines: list[int] = []
+    problems: list[Problem] = []
+    last = 0
+    try:
+        for record in reader:
+            first, last = last + 1, reader.line_num
+            if not any(cell.strip() for cell in record):
+                continue
+            if header is None:
+                header = record
+                continue
+            if len(record) != len(header):
+                problems.append(Problem(file=name, row=first, reason=f"{len(record)} cells where the header has "
+                                        f"{len(header)} (found {found(','.join(record))})"))
+                continue
+            records.append(record)
+            lines.append(first)
+    except csv.Error as exc:
+        reason = str(exc)
+        if "field larger than field limit" in reason:
+            reason = f"a cell longer than {csv.field_size_limit()} characters (is this an accounts file?)"
+        return None, [*problems, Problem(file=name, row=max(reader.line_num, 1), reason=f"not readable as CSV: "
+                                                                                         f"{reason}")]
+    if header is None:
+        return None, [Problem(file=name, reason="empty file: no header line and no data rows")]
+    df = pd.DataFrame(records, columns=header, dtype="str") if records else pd.DataFrame(columns=header, dtype="str")
+    df.insert(0, "source_row", pd.array(lines, dtype="int64"))
+    return df, problems
 
 
-def _read_parquet(path: Path) -> tuple[pd.DataFrame, int]:
-    df = pq.read_table(path).to_pandas()
+def _read_parquet(path: Path, name: str) -> tuple[pd.DataFrame | None, list[Problem]]:
+    """A parquet file; ``source_row`` is the 1-based row number; every cell becomes text."""
+    try:
+        names = pq.ParquetFile(path).schema_arrow.names
+        repeated = sorted({c for c in names if names.count(c) > 1})
+        if repeated:
+            return None, [Problem(file=name, reason=f"column(s) {', '.join(clip(c) for c in repeated)} appear more "
+                                  "than once")]
+        df = pq.read_table(path).to_pandas()
+    except Exception as exc:  # noqa: BLE001 - any failure of the parquet library on these bytes is the file's
+        detail = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+        return None, [Problem(file=name, reason=f"cannot be read as parquet: {detail}")]
     # the same text shape as CSV; numbers keep their full precision through repr()
-    text = {c: df[c].map(lambda v: "" if pd.isna(v) else repr(v) if isinstance(v, float) else str(v)) for c in df}
-    return pd.DataFrame(text, index=df.index), 1
+    text = pd.DataFrame({c: df[c].map(_cell).astype("str") for c in df}, index=df.index)
+    text.insert(0, "source_row", pd.RangeIndex(1, 1 + len(df)).astype("int64"))
+    return text, []
 
 
-READERS: dict[str, Callable[[Path], tuple[pd.DataFrame, int]]] = {
+def _cell(value: object) -> str:
+    if value is None or value is pd.NA or value is pd.NaT:
+        return ""
+    if isinstance(value, float):
+        return "" if math.isnan(value) else repr(value)
+    return str(value)
+
+
+READERS: dict[str, Reader] = {
     ".csv": _read_csv,
     ".parquet": _read_parquet,
 }
@@ -47,11 +115,52 @@ def account_files(accounts_dir: Path) -> list[Path]:
     return sorted(p for p in accounts_dir.iterdir() if p.is_file() and p.suffix.lower() in READERS)
 
 
+def read_file(path: Path, name: str) -> tuple[pd.DataFrame | None, list[Problem]]:
+    """One accounts-format file as a raw frame (`RAW_COLUMNS`, text but ``source_row``), or None.
+
+    ``name`` is how problems name the file (its path relative to the accounts folder).
+    """
+    try:
+        df, problems = READERS[path.suffix.lower()](path, name)
+    except OSError as exc:
+        return None, [Problem(file=name, reason=f"cannot be read: {exc.strerror or exc}")]
+    if df is None:
+        return None, problems
+    columns = [str(c).strip().lower() for c in df.columns]
+    df.columns = columns
+    header = columns[1:]  # after source_row
+    row = 1 if path.suffix.lower() == ".csv" else None
+    repeated = sorted({c for c in header if header.count(c) > 1})
+    missing = [c for c in REQUIRED if c not in header]
+    extra = [c for c in header if c not in REQUIRED + OPTIONAL]
+    if repeated:
+        return None, [*problems, Problem(file=name, row=row, reason=f"column(s) {', '.join(clip(c) for c in repeated)} "
+                                         "appear more than once in the header")]
+    if missing:
+        hint = ""
+        if len(header) == 1 and (sep := next((s for s in ";\t|" if s in header[0]), None)):
+            hint = f"; the columns seem separated by {sep!r}: valvol reads comma-separated files"
+        return None, [*problems, Problem(file=name, row=row, reason=f"missing column(s) {', '.join(missing)}{hint}")]
+    if extra:
+        return None, [*problems, Problem(
+            file=name, row=row, reason=f"unknown column(s) {', '.join(clip(c) for c in extra)}; allowed: "
+                                       f"{', '.join(REQUIRED + OPTIONAL)}")]
+    if df.empty and not problems:
+        return None, [Problem(file=name, reason="a header but no data rows" if row else "no data rows")]
+    for col in OPTIONAL:
+        if col not in df.columns:
+            df[col] = ""
+    for col in REQUIRED + OPTIONAL:
+        df[col] = df[col].astype("str").str.strip()
+    df.insert(0, "source_file", name)
+    return df[RAW_COLUMNS], problems
+
+
 def read_accounts(accounts_dir: str | Path) -> tuple[pd.DataFrame, list[Problem]]:
     """Read every data file of ``accounts_dir`` into one raw frame.
 
     Returns the frame (columns `RAW_COLUMNS`, all text but ``source_row``) and
-    the problems met while reading (unreadable file, missing column, no file).
+    the problems met while reading (unreadable file, bad header or line, no file).
     """
     folder = Path(accounts_dir)
     problems: list[Problem] = []
@@ -62,36 +171,10 @@ def read_accounts(accounts_dir: str | Path) -> tuple[pd.DataFrame, list[Problem]
         return _empty(), [Problem(file=str(folder), reason="no .csv or .parquet file in the accounts folder")]
     frames = []
     for path in files:
-        name = path.name
-        try:
-            df, first_row = READERS[path.suffix.lower()](path)
-        except UnicodeDecodeError:
-            problems.append(Problem(file=name, reason="file is not UTF-8 text"))
-            continue
-        except (pd.errors.ParserError, pd.errors.EmptyDataError, pa.ArrowException, OSError) as exc:
-            problems.append(Problem(file=name, reason=f"cannot be read: {str(exc).splitlines()[0]}"))
-            continue
-        df.columns = [str(c).strip().lower() for c in df.columns]
-        missing = [c for c in REQUIRED if c not in df.columns]
-        extra = [c for c in df.columns if c not in REQUIRED + OPTIONAL]
-        if missing:
-            problems.append(Problem(file=name, reason=f"missing column(s) {', '.join(missing)}"))
-            continue
-        if extra:
-            problems.append(
-                Problem(file=name, reason=f"unknown column(s) {', '.join(extra)}; allowed: "
-                        f"{', '.join(REQUIRED + OPTIONAL)}")
-            )
-            continue
-        for col in OPTIONAL:
-            if col not in df.columns:
-                df[col] = ""
-        df = df.astype({c: "str" for c in REQUIRED + OPTIONAL})
-        for col in REQUIRED + OPTIONAL:
-            df[col] = df[col].str.strip()
-        df.insert(0, "source_row", pd.RangeIndex(first_row, first_row + len(df)).astype("int64"))
-        df.insert(0, "source_file", name)
-        frames.append(df[RAW_COLUMNS])
+        df, found_here = read_file(path, path.name)
+        problems += found_here
+        if df is not None:
+            frames.append(df)
     if not frames:
         return _empty(), problems
     return pd.concat(frames, ignore_index=True), problems
