@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 import pandera.pandas as pa
+from valvol.schemas.checks import unique_key
 
 from valvol.frames import KEY, PRICE_BASES
 
@@ -21,8 +22,8 @@ levels = pa.DataFrameSchema(
         "period": pa.Column(str, pa.Check.str_matches(r"^[0-9]{4}(-Q[1-4])?$")),
         "value": pa.Column(float, pa.Check(np.isfinite, error="value must be finite")),
     },
-    checks=[pa.Check(lambda df: (df["frequency"] == "A") == (df["quarter"] == 0), error="frequency/quarter mismatch")],
-    unique=KEY,
+    checks=[pa.Check(lambda df: (df["frequency"] == "A") == (df["quarter"] == 0), error="frequency/quarter mismatch"),
+            unique_key(KEY)],
     strict=True,
     name="levels",
 )

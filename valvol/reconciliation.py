@@ -262,3 +262,32 @@ def _benchmark_file(accounts_dir: Path, config: Config) -> pd.DataFrame | None:
     if problems:
         raise InputError(problems)
     return rows
+
+
+def typed_report(report: pd.DataFrame) -> pd.DataFrame:
+    """The report with its published column types (floats and text), also when empty."""
+    floats = ["before", "after", "adjustment", "adjustment_pct", "adjustment_annual", "adjustment_identity",
+              "growth_before_pct", "growth_after_pct"]
+    text = [c for c in REPORT_COLUMNS if c not in floats]
+    return report.astype({**{c: "float64" for c in floats}, **{c: "str" for c in text}})
+
+
+def export_accounts(rows: pd.DataFrame, report: pd.DataFrame, config: Config, accounts_dir: Path,
+                    to_dir: Path) -> None:
+    """Write reconciled rows in the input format: ``accounts.csv``, the config, the report, benchmarks files."""
+    import shutil
+
+    from valvol.config import CONFIG_FILE
+
+    rows = rows.sort_values(["source_file", "source_row"], kind="mergesort")
+    out = rows[["economy", "period", "item", "price_basis", "value", "adjustment", "unit"]].copy()
+    out["value"] = out["value"].map(repr)
+    to_dir.mkdir(parents=True, exist_ok=True)
+    (to_dir / "reconciliation").mkdir(exist_ok=True)
+    out.to_csv(to_dir / "accounts.csv", index=False)
+    report.to_csv(to_dir / "reconciliation" / "report.csv", index=False)
+    if (accounts_dir / CONFIG_FILE).exists():
+        shutil.copyfile(accounts_dir / CONFIG_FILE, to_dir / CONFIG_FILE)
+    for name in {config.benchmark.benchmarks, config.reconcile.benchmarks} - {""}:  # files the config names
+        (to_dir / name).parent.mkdir(parents=True, exist_ok=True)
+        shutil.copyfile(accounts_dir / name, to_dir / name)

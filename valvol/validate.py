@@ -8,12 +8,14 @@ contiguous periods (`period_gaps`), identities (`identity_problems`).
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 import pandas as pd
 import pandera.pandas as pa
 
 from valvol.config import Config
-from valvol.errors import Problem, ValvolError
+from valvol.errors import InputError, Problem, ValvolError
 from valvol.periods import parse_periods, quarter_index
 from valvol.schemas import input as input_schema
 from valvol.schemas.outputs import identity_residuals
@@ -25,6 +27,20 @@ class StageError(ValvolError):
     """A derived table broke its schema: a defect or a degenerate input not caught earlier."""
 
     exit_code = 1
+
+
+def check_table(name: str, table) -> None:
+    """A published table against its pandera model; `StageError` when it breaks it (or has none)."""
+    from valvol.schemas.outputs import TABLES as SCHEMAS
+
+    schema = SCHEMAS.get(name)
+    if schema is None:
+        raise StageError(f"table {name} has no pandera model: not written")
+    frame = table.to_pandas() if hasattr(table, "to_pandas") else table
+    problems = run_schema(schema, frame)
+    if problems:
+        shown = "\n".join(p.render() for p in problems[:20])
+        raise StageError(f"table {name} breaks its schema ({len(problems)} problem(s)):\n{shown}")
 
 
 def parse_rows(raw: pd.DataFrame) -> pd.DataFrame:
@@ -149,3 +165,56 @@ def identity_problems(residuals: pd.DataFrame, what: str) -> list[Problem]:
                 reason=f"{what}: residual {r.residual:.6g} beyond tolerance {r.tolerance:.6g}")
         for r in bad.itertuples(index=False)
     ]
+
+
+def validate_rows(rows: pd.DataFrame, config: Config, accounts_dir: Path,
+                  problems: list[Problem]) -> tuple[pd.DataFrame, pd.DataFrame, dict]:
+    """Every input rule over the whole panel: return (accounts rows, price-index rows, staged tables).
+
+    ``problems`` are those already found (reading the files). Row rules, duplicate keys,
+    gaps and price indexes of economies without accounts are checked first; if the rows pass,
+    the identities (components against aggregates, quarters against years) are checked in
+    DuckDB, except those that benchmarking or reconciliation will restore; the tables staged
+    for that (`valvol.staging.STAGED_TABLES`) are returned as Arrow tables. Raises
+    `InputError` with every problem found.
+    """
+    from valvol import db, reconciliation
+    from valvol.staging import stage_accounts, staged_tables
+
+    problems = list(problems)
+    row_level = row_problems(rows, config)
+    problems += row_level
+    bad = pd.DataFrame([(p.file, p.row) for p in row_level], columns=["source_file", "source_row"])
+    located = pd.MultiIndex.from_frame(rows[["source_file", "source_row"]])
+    ok = rows.loc[~located.isin(pd.MultiIndex.from_frame(bad.astype({"source_row": "int64"})))]
+    if rows.empty and not problems:
+        problems.append(Problem(file=str(accounts_dir), reason="the accounts files hold no data rows"))
+    problems += duplicate_keys(ok)
+    dated = rows[rows["frequency"] != ""]  # every row with a valid period counts for contiguity
+    problems += period_gaps(dated.drop_duplicates(["economy", "item", "price_basis", "period"]))
+    is_index = ok["price_basis"].eq("index")
+    indexes, ok = ok[is_index], ok[~is_index]
+    for economy in sorted(set(pd.unique(indexes["economy"])) - set(pd.unique(ok["economy"]))):
+        first = indexes[indexes["economy"] == economy].iloc[0]
+        problems.append(Problem(file=first["source_file"], row=int(first["source_row"]), economy=economy,
+                                item=first["item"], price_basis="index",
+                                reason="price index of an economy that has no accounts"))
+    if problems:
+        raise InputError(problems)
+    moved, rebalanced = reconciliation.adjusted_items(config)  # checked again after reconciliation
+    bases = set(config.benchmark.price_bases) | set(config.reconcile.price_bases)
+    con = db.connect()
+    try:
+        stage_accounts(con, ok, config)
+        staged = staged_tables(con)
+    finally:
+        con.close()
+    ident, annual = staged["identity_residuals"].to_pandas(), staged["annual_vs_quarters"].to_pandas()
+    ident = ident[~(ident["item"].isin(rebalanced) & ident["price_basis"].isin(bases))]
+    annual = annual[~(annual["item"].isin(moved) & annual["price_basis"].isin(bases))]
+    problems += identity_problems(ident, "components do not add to the aggregate")
+    problems += identity_problems(
+        annual, "quarters do not " + ("average" if config.levels_at_annual_rate else "add") + " to the year")
+    if problems:
+        raise InputError(problems)
+    return ok, indexes, staged
