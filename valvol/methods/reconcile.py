@@ -251,7 +251,16 @@ def reconcile(components: pd.DataFrame, signs: Mapping[str, int], total: pd.Data
     aggregate of T_q over y. This is checked first; an inconsistent system is refused. Then
     one row per such year is dropped: the benchmark of the movable series with the largest
     |A_iy|. The quarterly identities therefore hold to rounding; a gap within the tolerance
-    shows up in that series' annual residual (``annual_residuals``).
+    shows up in that series' annual residual (``annual_residuals``). A year in which some
+    movable series has no benchmark (past the last one, typically) is not fully benchmarked:
+    nothing is checked or dropped for it, the series adds no temporal row for it, and its
+    quarters are bound only by the quarterly identities, the objective carrying each
+    series' movement on from its benchmarked quarters (when each series benchmarked on its
+    own already meets the identities, that is the result, so a proportional series keeps its
+    last benchmark-to-indicator ratio). Pass only
+    the years actually given: the sums of a year's own quarters as its benchmarks would hold
+    the extrapolated quarters to the indicator's level (and, with a total, usually make the
+    year inconsistent).
 
     Attribution (``constraint`` column): the adjustment splits exactly into
     ``adjustment_annual`` = (each movable series benchmarked on its own, same objective,
