@@ -14,12 +14,12 @@ import pandas as pd
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from support import make_panel, uk_panel, uk_release
+from support import make_panel, rows_of, uk_panel, uk_release
 
 from valvol.errors import ConfigError, InputError
 from valvol.hierarchy import Hierarchy
-from valvol.methods.deflators import deflator_growth, implicit_deflators
-from valvol.methods.price_gaps import MEASURE_COLUMNS, NUMERAIRES, price_gaps
+from valvol.methods.deflators import deflator_growth, implicit_deflators, pivot_bases
+from valvol.methods.price_gaps import MEASURE_COLUMNS, NUMERAIRES, _series, price_gaps
 
 GAP_MEASURES = ["gap_gdp_vs_domestic_demand", "gap_export_price_part", "gap_import_price_part", "gap_other_part"]
 
@@ -194,6 +194,32 @@ def test_gap_annual_k_share_formula_and_derived_domestic_demand():
     no_pyp = lv[~((lv["item"] == "P3_P5") & (lv["price_basis"] == "previous_year"))]  # filled from P3 + P5
     filled = wide(price_gaps(no_pyp, hierarchy=HIER))
     pd.testing.assert_frame_equal(filled[GAP_MEASURES], g[GAP_MEASURES], rtol=1e-10, atol=1e-10)
+
+
+def test_series_fills_an_aggregate_from_parts_at_every_depth():
+    """Hand sums: DD = P3 + P5 with P3 = P31_S14 + P3_S13 and P5 = P51G + P52; the panel lacks DD.
+    A part's own value is used where given, else the sum of its parts, per price basis: 2000
+    P3 has its own current value (30, not 1 + 1) and its previous-year value from its parts
+    (0.5 + 0.5); 2001 lacks P3 (15 and 7.5 from its parts) and P5 at previous-year prices
+    (1.5 + 0.5, its own current value 7 kept); 2002 lacks P3 and P5, and P52 at previous-year
+    prices, so DD has a current value (5 + 5) and no previous-year one. v is never summed."""
+    hier = Hierarchy.from_mapping({"P3": ["P31_S14", "P3_S13"], "P5": ["P51G", "P52"]})
+    vals = {("P31_S14", 2000): 1.0, ("P3_S13", 2000): 1.0, ("P3", 2000): 30.0, ("P5", 2000): 4.0,
+            ("P31_S14", 2001): 10.0, ("P3_S13", 2001): 5.0, ("P5", 2001): 7.0, ("P51G", 2001): 3.0,
+            ("P52", 2001): 1.0, ("P31_S14", 2002): 2.0, ("P3_S13", 2002): 3.0, ("P51G", 2002): 6.0,
+            ("P52", 2002): -1.0}
+    rows = []
+    for (item, year), v in vals.items():
+        rows.append(rows_of("XX", item, "current", "A", [year], [0], [v]))
+        if (item, year) not in {("P52", 2002), ("P3", 2000), ("P5", 2001)}:
+            rows.append(rows_of("XX", item, "previous_year", "A", [year], [0], [v / 2]))
+        rows.append(rows_of("XX", item, "chain_linked", "A", [year], [0], [abs(v)]))
+    lv = pd.concat(rows, ignore_index=True)
+    lv["period"] = lv["year"].astype(str)
+    got = _series(pivot_bases(lv), hier, "P3_P5", (("P3", 1), ("P5", 1))).set_index("year")
+    np.testing.assert_allclose(got["c"].to_numpy(), [30.0 + 4.0, 15.0 + 7.0, 5.0 + 5.0])
+    np.testing.assert_allclose(got["k"].to_numpy(), [1.0 + 2.0, 7.5 + 2.0, np.nan])
+    assert got["v"].isna().all()
 
 
 # --- UK release ----------------------------------------------------------------------------
