@@ -33,7 +33,7 @@ import pandas as pd
 from valvol.errors import ConfigError, InputError, Problem
 from valvol.frames import period_label
 from valvol.hierarchy import Hierarchy
-from valvol.methods.deflator_contributions import step_values
+from valvol.methods.deflator_contributions import first_year_values, step_values
 from valvol.methods.deflators import _raise_non_positive, pivot_bases, with_horizons
 
 NUMERAIRES: tuple[str, ...] = ("trade_average", "import", "export", "domestic_final_demand")
@@ -89,8 +89,9 @@ def price_gaps(
     ConfigError
         Unknown numeraire.
     InputError
-        Zero or negative values of GDP, exports or imports; no reference year found when
-        the numeraire needs one; a malformed CPI frame.
+        Zero or negative current or chain-linked values of GDP, exports, imports, household
+        consumption or domestic demand; no reference year found when the numeraire needs
+        one; a malformed CPI frame.
 
     Notes
     -----
@@ -116,6 +117,12 @@ def price_gaps(
     METHODS.md's pi_GDP - pi_DD = w_X (pi_X - pi_DD) - w_M (pi_M - pi_DD) + other, with
     K-share weights w = K_j/K_GDP. Two links combine as
     gap = gap_1 R_GDP,2 + R_DD,1 gap_2, part by part, so the parts add up to the gap.
+    First link (docs/derivations/first_link.md, section 6): the annual link of the second
+    year needs that year only; in the first year the ends are valued at that year's average
+    prices (`first_year_values`: K = C, a quarter at CLV C/CLV_y from its own chain-linked
+    values), so the gaps of the quarters within the first year, across its end and year on
+    year in the second year exist where the series compared have chain-linked values there
+    (a domestic demand summed from its parts has none: v is never summed).
 
     *CPI*: a monthly CPI enters as the mean of its levels over the quarter (common
     practice); growth gaps are differences of growth rates, not level ratios.
@@ -130,7 +137,8 @@ def price_gaps(
     if numeraire not in NUMERAIRES:
         raise ConfigError(f"price gaps: numeraire {numeraire!r} is not one of {', '.join(NUMERAIRES)}")
     wide = pivot_bases(levels)
-    _raise_non_positive(wide.loc[wide["item"].isin([GDP, EXPORTS, IMPORTS])], ("current", "chain_linked"))
+    positive = [GDP, EXPORTS, IMPORTS, HOUSEHOLD, DOMESTIC_DEMAND]
+    _raise_non_positive(wide.loc[wide["item"].isin(positive)], ("current", "chain_linked"))
     series = {"Z": _series(wide, hierarchy, GDP), "X": _series(wide, hierarchy, EXPORTS),
               "M": _series(wide, hierarchy, IMPORTS)}
     gaps, household = _gaps(wide, hierarchy, series)
@@ -322,15 +330,19 @@ def _gaps(wide: pd.DataFrame, hierarchy: Hierarchy, trade: dict[str, pd.DataFram
     """Growth gaps GDP vs domestic demand (split), household vs GDP; household growth."""
     series = {**trade, "HH": _series(wide, hierarchy, HOUSEHOLD),
               "DD": _series(wide, hierarchy, DOMESTIC_DEMAND, DOMESTIC_DEMAND_PARTS)}
-    ck = {k: v[_KEYS + ["c", "k"]].dropna() for k, v in series.items()}
+    # first years at their own average prices (from each series' own chain-linked values)
+    ck = {lab: first_year_values(s.dropna(subset=["c"]).assign(item=lab))[_KEYS + ["c", "k", "unpriced"]]
+          for lab, s in series.items()}
     o = ck["Z"]
-    for label, sign in (("DD", -1), ("X", -1), ("M", 1)):
+    for label, sign in (("DD", -1), ("X", -1), ("M", 1)):  # the rest of GDP at both price bases
         o = o.merge(ck[label], on=_KEYS, suffixes=("", "_j"))
-        o = o.assign(c=o["c"] + sign * o["c_j"], k=o["k"] + sign * o["k_j"]).drop(columns=["c_j", "k_j"])
+        o = o.assign(c=o["c"] + sign * o["c_j"], k=o["k"] + sign * o["k_j"],
+                     unpriced=o["unpriced"] | o["unpriced_j"]).drop(columns=["c_j", "k_j", "unpriced_j"])
     ck["O"] = o
     long = pd.concat([v.assign(item=k) for k, v in ck.items()], ignore_index=True)
     st = step_values(long)
-    w = st.loc[st["ok"]].set_index(_ROW + ["item"])[["ca1", "ka1", "cb1", "kb1", "ca2", "ka2", "cb2", "kb2"]]
+    keep = st["ok"] & ~st["unpriced"]
+    w = st.loc[keep].set_index(_ROW + ["item"])[["ca1", "ka1", "cb1", "kb1", "ca2", "ka2", "cb2", "kb2"]]
     w = w.unstack("item")
     nan = np.full(len(w), np.nan)
     arrays = {key: w[key].to_numpy(dtype="float64") for key in w.columns}
