@@ -147,6 +147,11 @@ def validate(accounts_dir: str | Path, work: str | Path, config: Config | None =
                                 reason="price index of an economy that has no accounts"))
     if problems:
         raise InputError(problems)
+    from valvol.methods.index_bases import convert  # volume_index, price_index -> chain_linked (and current)
+
+    ok, problems = convert(ok, config)
+    if problems:
+        raise InputError(problems)
     moved, rebalanced = reconciliation.adjusted_items(config)  # checked again after reconciliation
     bases = set(config.benchmark.price_bases) | set(config.reconcile.price_bases)
     con = db.connect(work / "validate.duckdb")
