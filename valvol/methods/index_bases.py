@@ -207,7 +207,8 @@ def to_money_terms(
     problems += loc.series(no_cref, "volume_index", "volume_index (reference year " + _year(no_cref["vi_year"])
                            + ") needs the annual current-price value of its reference year (C_ref, given as a year or "
                            "as four quarters), positive: " + _text(
-                               no_cref["c_ref"], lambda x: "missing" if pd.isna(x) else f"found {x:g}"), period=no_cref["vi_year"])
+                               no_cref["c_ref"], lambda x: "missing" if pd.isna(x) else f"found {x:g}"),
+                           year=no_cref["vi_year"])
     four_vi = a & w["vi_n"].eq(4)
     scale = np.where(q & (not annual_rate), 0.25, 1.0)  # c̄_r = C_r / 4 for quarters that add to the year
     convert = to_convert & (w["c_ref"] > 0) & ~four_vi
@@ -395,7 +396,8 @@ def _mixed_reference_years(used: pd.DataFrame, loc: _Locator) -> list[Problem]:
         off = mixed[(mixed["ref"] != mixed["ref_common"]) & (mixed["price_basis"] == basis)]
         problems += loc.series(off, basis, "reference year " + _year(off["ref"]) + " differs from "
                                + _year(off["ref_common"]) + ", that of the economy's other index series used "
-                               "here: the volumes and prices derived for one economy must share one reference year")
+                               "here: the volumes and prices derived for one economy must share one reference year",
+                               year=off["ref"])
     return problems
 
 
@@ -474,16 +476,26 @@ class _Locator:
         return _problems(at, at["_why"])
 
     def series(self, frame: pd.DataFrame, basis: str, reason: str | pd.Series,
-               period: pd.Series | None = None) -> list[Problem]:
-        """One problem per series of ``frame`` (located at its first ``basis`` row)."""
+               year: pd.Series | None = None) -> list[Problem]:
+        """One problem per series of ``frame``, located at its first ``basis`` row in ``year`` (the
+        series' reference year) when there is one, else at its first ``basis`` row."""
         if frame.empty:
             return []
-        extra = {"_why": _texts(frame, reason)}
-        if period is not None:
-            extra["_period"] = _year(period)
-        at = frame[_SERIES].assign(**extra).merge(self.first[self.first["price_basis"] == basis], on=_SERIES)
-        if period is not None:
-            at["period"] = at["_period"]
+        at = frame[_SERIES].assign(_why=_texts(frame, reason))
+        first = self.first[self.first["price_basis"] == basis]
+        if year is not None:
+            rows = self.at[self.at["price_basis"] == basis].sort_values(["source_file", "source_row"],
+                                                                         kind="mergesort")
+            in_year = rows.drop_duplicates(_SERIES + ["year"])[_SERIES + ["year", *_LOCATE[:2], "price_basis",
+                                                                          "period"]]
+            in_year = in_year.astype({"year": "float64"})
+            at = at.assign(year=year.reindex(frame.index).astype("float64").to_numpy())
+            located = at.merge(in_year, on=_SERIES + ["year"], how="left")
+            fallback = located["source_row"].isna()
+            rest = located.loc[fallback, _SERIES + ["_why"]].merge(first, on=_SERIES)
+            at = pd.concat([located[~fallback], rest], ignore_index=True)
+        else:
+            at = at.merge(first, on=_SERIES)
         return _problems(at, at["_why"])
 
 
