@@ -122,7 +122,8 @@ def to_money_terms(
     *Reference years of one economy.* Every index series that is used (converted into
     volumes or current prices) of one economy must share one reference year: the derived
     volumes form one set of accounts, whose non-additivity residuals and re-referencing
-    assume it. A volume derived from a price index and a volume index of the same economy
+    assume it; each series off the economy's most common reference year (the latest among
+    equally common ones) is named. A volume derived from a price index and a volume index of the same economy
     are thus on one reference, and so are the volume and the price behind a derived
     current price. A volume given as ``chain_linked`` has no detectable reference year
     where current prices are missing: a current price derived from it assumes the price
