@@ -111,9 +111,26 @@ def derive_chunk(
         tables = {name: db.query_arrow(con, f"out_{name}") for name in TABLES}
     finally:
         con.close()
+    carried = tuple(config.carry_columns)
+    if carried:
+        tables["levels"] = with_carried_columns(tables["levels"], rows, carried)
     for name, table in tables.items():
-        check_table(name, table)
+        check_table(name, table, carried if name == "levels" else ())
     return tables
+
+
+def with_carried_columns(levels: pa.Table, rows: pd.DataFrame, carried: tuple[str, ...]) -> pa.Table:
+    """The published levels with the input's carried columns (``carry_columns``), by key.
+
+    A value as given (or converted from an index) keeps its row's flags; a derived value
+    (annual sums, aggregates, volumes) gets empty text.
+    """
+    key = ["economy", "period", "item", "price_basis"]
+    lv = levels.to_pandas()
+    flags = rows[key + list(carried)].astype({c: "str" for c in carried})
+    out = lv.merge(flags, on=key, how="left", validate="one_to_one")
+    out[list(carried)] = out[list(carried)].fillna("")
+    return pa.Table.from_pandas(out, preserve_index=False)
 
 
 def failed_check_problems(checks: pa.Table) -> list[Problem]:

@@ -31,6 +31,11 @@ import pandas as pd
 KEY = ["economy", "item", "price_basis", "frequency", "year", "quarter"]
 LEVEL_COLUMNS = ["economy", "item", "price_basis", "frequency", "year", "quarter", "period", "value"]
 PRICE_BASES = ("current", "previous_year", "chain_linked")
+#: Index bases accepted in input and turned into ``chain_linked`` (and ``current``) rows by
+#: `valvol.methods.index_bases` before staging: they never reach the levels panel.
+INDEX_BASES = ("volume_index", "price_index")
+#: Price bases of accounts items in the input contract.
+INPUT_PRICE_BASES = (*PRICE_BASES, *INDEX_BASES)
 #: Columns of the ``checks`` table, wherever checks are made.
 CHECK_COLUMNS = ["economy", "period", "rule", "item", "value", "tolerance", "status"]
 

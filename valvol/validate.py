@@ -29,13 +29,19 @@ class StageError(ValvolError):
     exit_code = 1
 
 
-def check_table(name: str, table) -> None:
-    """A published table against its pandera model; `StageError` when it breaks it (or has none)."""
+def check_table(name: str, table, carried: tuple[str, ...] = ()) -> None:
+    """A published table against its pandera model; `StageError` when it breaks it (or has none).
+
+    ``carried``: text columns carried from the input (``carry_columns``) that the table holds
+    besides its model's columns.
+    """
     from valvol.schemas.outputs import TABLES as SCHEMAS
 
     schema = SCHEMAS.get(name)
     if schema is None:
         raise StageError(f"table {name} has no pandera model: not written")
+    if carried:
+        schema = schema.add_columns({c: pa.Column(str) for c in carried})
     frame = table.to_pandas() if hasattr(table, "to_pandas") else table
     problems = run_schema(schema, frame)
     if problems:
@@ -199,6 +205,11 @@ def validate_rows(rows: pd.DataFrame, config: Config, accounts_dir: Path,
         problems.append(Problem(file=first["source_file"], row=int(first["source_row"]), economy=economy,
                                 item=first["item"], price_basis="index",
                                 reason="price index of an economy that has no accounts"))
+    if problems:
+        raise InputError(problems)
+    from valvol.methods.index_bases import convert  # volume_index, price_index -> chain_linked (and current)
+
+    ok, problems = convert(ok, config)
     if problems:
         raise InputError(problems)
     moved, rebalanced = reconciliation.adjusted_items(config)  # checked again after reconciliation

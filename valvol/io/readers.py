@@ -5,11 +5,18 @@ item, price_basis, value, adjustment, unit`` plus ``source_file`` (path
 relative to the folder) and ``source_row`` (the line number in a CSV file,
 header = line 1; the 1-based row number in a parquet file). Adding a format is
 adding a function to `READERS`.
+
+Agencies ship extra columns (an observation status ``obs_status``, a confidentiality
+flag ``conf_status``, ...). Those declared in ``carry_columns`` of ``valvol.toml`` are
+kept as text, after the raw columns (empty in a file that lacks them); any other
+column is dropped with a warning on the ``valvol`` logger naming the file and the
+columns.
 """
 
 from __future__ import annotations
 
-from collections.abc import Callable
+import logging
+from collections.abc import Callable, Iterable
 from pathlib import Path
 
 import pandas as pd
@@ -21,6 +28,8 @@ from valvol.errors import Problem
 REQUIRED = ("economy", "period", "item", "price_basis", "value")
 OPTIONAL = ("adjustment", "unit")
 RAW_COLUMNS = ["source_file", "source_row", *REQUIRED, *OPTIONAL]
+
+log = logging.getLogger("valvol")
 
 
 def _read_csv(path: Path) -> tuple[pd.DataFrame, int]:
@@ -47,19 +56,25 @@ def account_files(accounts_dir: Path) -> list[Path]:
     return sorted(p for p in accounts_dir.iterdir() if p.is_file() and p.suffix.lower() in READERS)
 
 
-def read_accounts(accounts_dir: str | Path) -> tuple[pd.DataFrame, list[Problem]]:
+def read_accounts(accounts_dir: str | Path,
+                  carry_columns: Iterable[str] = ()) -> tuple[pd.DataFrame, list[Problem]]:
     """Read every data file of ``accounts_dir`` into one raw frame.
 
-    Returns the frame (columns `RAW_COLUMNS`, all text but ``source_row``) and
-    the problems met while reading (unreadable file, missing column, no file).
+    ``carry_columns``: extra columns kept as text (``carry_columns`` of the configuration).
+
+    Returns the frame (columns `RAW_COLUMNS` plus the carried columns, all text but
+    ``source_row``) and the problems met while reading (unreadable file, missing column,
+    no file). Other unknown columns are dropped with a logged warning, not a problem.
     """
     folder = Path(accounts_dir)
     problems: list[Problem] = []
     if not folder.is_dir():
-        return _empty(), [Problem(file=str(folder), reason="accounts folder does not exist")]
+        return _empty(()), [Problem(file=str(folder), reason="accounts folder does not exist")]
+    carry = tuple(carry_columns)
+    text_columns = (*REQUIRED, *OPTIONAL, *carry)
     files = account_files(folder)
     if not files:
-        return _empty(), [Problem(file=str(folder), reason="no .csv or .parquet file in the accounts folder")]
+        return _empty(carry), [Problem(file=str(folder), reason="no .csv or .parquet file in the accounts folder")]
     frames = []
     for path in files:
         name = path.name
@@ -73,29 +88,27 @@ def read_accounts(accounts_dir: str | Path) -> tuple[pd.DataFrame, list[Problem]
             continue
         df.columns = [str(c).strip().lower() for c in df.columns]
         missing = [c for c in REQUIRED if c not in df.columns]
-        extra = [c for c in df.columns if c not in REQUIRED + OPTIONAL]
+        extra = [c for c in df.columns if c not in text_columns]
         if missing:
             problems.append(Problem(file=name, reason=f"missing column(s) {', '.join(missing)}"))
             continue
         if extra:
-            problems.append(
-                Problem(file=name, reason=f"unknown column(s) {', '.join(extra)}; allowed: "
-                        f"{', '.join(REQUIRED + OPTIONAL)}")
-            )
-            continue
-        for col in OPTIONAL:
+            log.warning("%s: unknown column(s) %s dropped (declare them in carry_columns of valvol.toml to keep "
+                        "them)", name, ", ".join(extra))
+            df = df.drop(columns=extra)
+        for col in (*OPTIONAL, *carry):
             if col not in df.columns:
                 df[col] = ""
-        df = df.astype({c: "str" for c in REQUIRED + OPTIONAL})
-        for col in REQUIRED + OPTIONAL:
+        df = df.astype({c: "str" for c in text_columns})
+        for col in text_columns:
             df[col] = df[col].str.strip()
         df.insert(0, "source_row", pd.RangeIndex(first_row, first_row + len(df)).astype("int64"))
         df.insert(0, "source_file", name)
-        frames.append(df[RAW_COLUMNS])
+        frames.append(df[[*RAW_COLUMNS, *carry]])
     if not frames:
-        return _empty(), problems
+        return _empty(carry), problems
     return pd.concat(frames, ignore_index=True), problems
 
 
-def _empty() -> pd.DataFrame:
-    return pd.DataFrame({c: pd.Series(dtype="int64" if c == "source_row" else "str") for c in RAW_COLUMNS})
+def _empty(carry: tuple[str, ...]) -> pd.DataFrame:
+    return pd.DataFrame({c: pd.Series(dtype="int64" if c == "source_row" else "str") for c in [*RAW_COLUMNS, *carry]})
