@@ -293,6 +293,7 @@ def derive_contributions(con: duckdb.DuckDBPyConnection, config: Config, levels:
     never figures built from current prices alone.
     """
     from valvol.methods import contributions, deflator_contributions
+    from valvol.methods.panel import zero_fill_components
 
     levels = zero_fill_components(levels, config.hierarchy)
     convention = config.contributions.convention
@@ -322,26 +323,6 @@ def derive_contributions(con: duckdb.DuckDBPyConnection, config: Config, levels:
 CONTRIBUTION_COLUMNS = ["economy", "period", "frequency", "year", "quarter", "aggregate", "item", "horizon",
                         "contribution_pp", "aggregate_growth_pct", "residual_pp"]
 _FLOAT = ("contribution_pp", "aggregate_growth_pct", "residual_pp")
-
-
-def zero_fill_components(levels: pd.DataFrame, hierarchy) -> pd.DataFrame:
-    """Zeros for a component's periods before it starts (or after it ends), where its aggregate has values.
-
-    The aggregates are formed with a missing component counting as zero in that period
-    (``sql/int_aggregate.sql``); the decompositions see the same zeros, so that a series
-    starting later than others contributes its level change from zero, and the aggregate's
-    contributions still add up. Only series the economy reports are filled.
-    """
-    edges = pd.DataFrame(hierarchy.edges(), columns=["aggregate", "item", "sign"])[["aggregate", "item"]]
-    series = ["economy", "item", "price_basis", "frequency"]
-    at = ["economy", "price_basis", "frequency", "year", "quarter", "period"]
-    aggregate_rows = levels.rename(columns={"item": "aggregate"}).merge(edges, on="aggregate")[at + ["item"]]
-    reported = levels[series].drop_duplicates()
-    wanted = aggregate_rows.merge(reported, on=series).drop_duplicates()
-    have = levels[series + ["year", "quarter"]]
-    missing = wanted.merge(have, on=series + ["year", "quarter"], how="left", indicator=True)
-    missing = missing[missing["_merge"] == "left_only"].drop(columns="_merge").assign(value=0.0)
-    return pd.concat([levels, missing[levels.columns]], ignore_index=True) if len(missing) else levels
 
 
 def derive_price_gaps(con: duckdb.DuckDBPyConnection, config: Config, levels: pd.DataFrame,

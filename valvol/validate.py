@@ -18,6 +18,7 @@ from valvol.config import Config
 from valvol.errors import InputError, Problem, ValvolError
 from valvol.periods import parse_periods, quarter_index
 from valvol.schemas import input as input_schema
+from valvol.schemas.checks import key_codes
 from valvol.schemas.outputs import identity_residuals
 
 _LOCATE = ["source_file", "source_row", "economy", "item", "period_text", "price_basis"]
@@ -117,7 +118,7 @@ def row_problems(rows: pd.DataFrame, config: Config) -> list[Problem]:
 def duplicate_keys(rows: pd.DataFrame) -> list[Problem]:
     """Two rows for one (economy, item, price_basis, period), in one file or across files."""
     key = ["economy", "item", "price_basis", "period"]
-    dup = rows[rows.duplicated(key, keep=False)]
+    dup = rows[pd.Series(key_codes(rows, key)).duplicated(keep=False).to_numpy()]
     if dup.empty:
         return []
     first = dup.drop_duplicates(key)[key + ["source_file", "source_row"]]
@@ -138,9 +139,13 @@ def period_gaps(rows: pd.DataFrame) -> list[Problem]:
         [quarter_index(df["year"], df["quarter"].clip(lower=1)), df["year"] * 12 + df["month"] - 1],
         df["year"],
     )
-    df = df.sort_values(key + ["idx"], kind="mergesort")
-    step = df.groupby(key, sort=False)["idx"].diff()
-    gaps = df[step > 1].assign(prev=df["idx"].shift()[step > 1])
+    series = key_codes(df, key)
+    idx = df["idx"].to_numpy()
+    order = np.lexsort((idx, series))  # by series, then period
+    series, idx = series[order], idx[order]
+    step = np.r_[0, np.diff(idx)]
+    gap = np.flatnonzero((step > 1) & np.r_[False, series[1:] == series[:-1]])
+    gaps = df.iloc[order[gap]].assign(prev=idx[gap - 1])
     out = []
     for _, g in gaps.iterrows():
         first, last = int(g["prev"]) + 1, int(g["idx"]) - 1
@@ -197,7 +202,8 @@ def validate_rows(rows: pd.DataFrame, config: Config, accounts_dir: Path,
         problems.append(Problem(file=str(accounts_dir), reason="the accounts files hold no data rows"))
     problems += duplicate_keys(ok)
     dated = rows[rows["frequency"] != ""]  # every row with a valid period counts for contiguity
-    problems += period_gaps(dated.drop_duplicates(["economy", "item", "price_basis", "period"]))
+    problems += period_gaps(dated[~pd.Series(key_codes(dated, ["economy", "item", "price_basis", "period"]))
+                                   .duplicated().to_numpy()])
     is_index = ok["price_basis"].eq("index")
     indexes, ok = ok[is_index], ok[~is_index]
     for economy in sorted(set(pd.unique(indexes["economy"])) - set(pd.unique(ok["economy"]))):

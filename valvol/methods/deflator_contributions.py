@@ -318,6 +318,8 @@ def income_side_contributions(levels: pd.DataFrame, *, real_gdp_item: str = "B1G
     real GDP; ECB Economic Bulletin 4/2023, box; Statistics Canada, The Daily,
     28 June 2023, Table 1.
     """
+    if not levels["item"].isin(list(INCOME_ITEMS)).any():  # no income side given
+        return _finish(pd.DataFrame())
     wide = pivot_bases(levels)
     keys = ["economy", "frequency", "year", "quarter", "period"]
     inc = wide.loc[wide["item"].isin(list(INCOME_ITEMS))].pivot(index=keys, columns="item", values="current")

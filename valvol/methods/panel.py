@@ -259,3 +259,31 @@ def raise_problems(problems: list[Problem]) -> None:
         raise InputError(problems)
 
 
+
+
+def zero_fill_components(levels: pd.DataFrame, hierarchy: Hierarchy) -> pd.DataFrame:
+    """Zeros for a component's periods before it starts (or after it ends), where its aggregate has values.
+
+    The aggregates are formed with a missing component counting as zero in that period
+    (``sql/int_aggregate.sql``); the decompositions see the same zeros, so that a series
+    starting later than others contributes its level change from zero, and the aggregate's
+    contributions still add up. Only series the economy reports are filled.
+    """
+    from valvol.schemas.checks import key_codes
+
+    edges = pd.DataFrame(hierarchy.edges(), columns=["aggregate", "item", "sign"])[["aggregate", "item"]]
+    at = ["economy", "price_basis", "frequency", "year", "quarter", "period"]
+    aggregate_rows = levels.loc[levels["item"].isin(edges["aggregate"].unique()), [*at, "item"]]
+    wanted = aggregate_rows.rename(columns={"item": "aggregate"}).merge(edges, on="aggregate")[[*at, "item"]]
+    if wanted.empty:
+        return levels
+    n = len(levels)
+    both = pd.concat([levels[[*at, "item"]], wanted], ignore_index=True)
+    row = key_codes(both, ["economy", "item", "price_basis", "frequency", "year", "quarter"])
+    series = key_codes(both, ["economy", "item", "price_basis", "frequency"])
+    new = ~np.isin(row[n:], row[:n]) & np.isin(series[n:], series[:n])
+    new &= ~pd.Series(row[n:]).duplicated().to_numpy()
+    if not new.any():
+        return levels
+    missing = wanted[new].assign(value=0.0)
+    return pd.concat([levels, missing[levels.columns]], ignore_index=True)
