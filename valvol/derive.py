@@ -163,8 +163,12 @@ def derive_volumes(con: duckdb.DuckDBPyConnection, config: Config) -> pd.DataFra
     panel (the staged levels with them), read from the database once.
     """
     from valvol.methods import chainlink
+    from valvol.methods.panel import levels_wide, raise_nonpositive
 
     levels = _levels(con)
+    # deflators and growth rates are ratios: a positive series must be positive at every basis
+    bases = {"current": "current", "previous_year": "previous_year", "chain_linked": "chain_linked"}
+    raise_nonpositive(levels_wide(levels, bases), bases, config.hierarchy)
     added = []
     h = config.hierarchy
     given = levels[levels["price_basis"] == "chain_linked"]

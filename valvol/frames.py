@@ -43,12 +43,18 @@ CHECK_COLUMNS = ["economy", "period", "rule", "item", "value", "tolerance", "sta
 def period_label(year: np.ndarray | pd.Series, quarter: np.ndarray | pd.Series) -> pd.Series:
     """Canonical period labels: ``YYYY-Qn`` for quarter > 0, ``YYYY`` for quarter 0.
 
+    Each distinct period is labelled once and the labels spread to the rows, so long panels
+    cost one take. The one place these labels are formed.
+
     >>> list(period_label(pd.Series([2020, 2020]), pd.Series([0, 3])))
     ['2020', '2020-Q3']
     """
-    y = pd.Series(np.asarray(year), dtype="int64").astype(str)
-    q = pd.Series(np.asarray(quarter), dtype="int64")
-    return y.where(q == 0, y + "-Q" + q.astype(str))
+    code = np.asarray(year, dtype="int64") * 5 + np.asarray(quarter, dtype="int64")
+    uniq, inverse = np.unique(code, return_inverse=True)
+    y = pd.Series(uniq // 5).astype(str)
+    q = pd.Series(uniq % 5)
+    labels = y.where(q == 0, y + "-Q" + q.astype(str)).astype("str")
+    return labels.take(inverse.reshape(-1)).reset_index(drop=True)
 
 
 def empty_levels() -> pd.DataFrame:

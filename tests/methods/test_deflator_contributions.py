@@ -34,10 +34,10 @@ from valvol.methods.deflator_contributions import (
     CONTRIBUTION_COLUMNS,
     UNIT_DISCREPANCY,
     deflator_contributions,
-    fisher_price_contributions_arrays,
     income_side_contributions,
 )
 from valvol.methods.deflators import deflator_growth, implicit_deflators
+from valvol.methods.index_numbers import fisher_price_contributions_arrays
 
 REFERENCE = Path(__file__).resolve().parents[1] / "reference_data"
 ONE_DECIMAL = 0.05 + 1e-9

@@ -19,7 +19,8 @@ from support import first_link_panel, make_panel, rows_of, uk_panel, uk_release
 
 from valvol.errors import ConfigError, InputError
 from valvol.hierarchy import Hierarchy
-from valvol.methods.deflators import deflator_growth, implicit_deflators, pivot_bases
+from valvol.methods.deflators import deflator_growth, implicit_deflators
+from valvol.methods.panel import pivot_bases
 from valvol.methods.price_gaps import MEASURE_COLUMNS, NUMERAIRES, _series, price_gaps
 
 GAP_MEASURES = ["gap_gdp_vs_domestic_demand", "gap_export_price_part", "gap_import_price_part", "gap_other_part"]

@@ -112,13 +112,6 @@ def ar1_precision(lengths: np.ndarray, rho: np.ndarray) -> sp.csr_matrix:
     return _tridiagonal(diag, off)
 
 
-def period_labels(year: np.ndarray, quarter: np.ndarray) -> np.ndarray:
-    """``YYYY-Qn`` labels of many quarters (labels formed once per distinct quarter)."""
-    t = np.asarray(year, dtype="int64") * 4 + np.asarray(quarter, dtype="int64") - 1
-    u, inv = np.unique(t, return_inverse=True)
-    return period_label(u // 4, u % 4 + 1).to_numpy(dtype=object)[inv]
-
-
 def solve_kkt(gram: sp.spmatrix, cons: sp.spmatrix, rhs: np.ndarray, *, banded: bool = False) -> np.ndarray:
     """Solve min w'Gw s.t. Cw = rhs through the sparse system [[G, C'], [C, 0]] [w; l] = [0; rhs].
 
@@ -232,7 +225,7 @@ def _arrange(indicator: pd.DataFrame, benchmarks: pd.DataFrame, by: list[str], y
     n = len(ind)
     problems: list[Problem] = []
     if "period" not in ind.columns:
-        ind["period"] = period_labels(year, quarter)
+        ind["period"] = period_label(year, quarter).to_numpy()
     starts = np.flatnonzero(new)
     lengths = np.diff(np.r_[starts, n])
     keys = ind.loc[starts, by].reset_index(drop=True)

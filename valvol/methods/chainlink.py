@@ -147,7 +147,7 @@ def chain_link(levels: pd.DataFrame, *, hierarchy: Hierarchy, method: str = "ann
     if w.empty:
         return empty_levels()
     w["sc"] = item_flags(w["item"], hierarchy.is_sign_changing)
-    raise_problems(nonpositive_problems(w, hierarchy, {"c": "current", "k": "previous_year"}))
+    raise_problems(nonpositive_problems(w, {"c": "current", "k": "previous_year"}, hierarchy))
     if reference_year is not None:
         ref = pd.Series(int(reference_year), index=pd.unique(w["economy"]))
     else:

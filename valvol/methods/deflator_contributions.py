@@ -8,7 +8,6 @@ direct component, period and horizon; percentage points; imports negative):
 * `income_side_contributions`: unit labour costs, unit profits, unit net taxes and the
   unit discrepancy, whose sum is the GDP deflator.
 
-`fisher_price_contributions_arrays` is the price-side Fisher formula for one set of items;
 `first_year_values` and `step_values` are the two-link ends shared with `valvol.methods.price_gaps`.
 """
 
@@ -20,7 +19,8 @@ import pandas as pd
 from valvol.errors import ConfigError, InputError, Problem
 from valvol.frames import period_label
 from valvol.hierarchy import Hierarchy
-from valvol.methods.deflators import _label, _raise_non_positive, pivot_bases, with_horizons
+from valvol.methods.index_numbers import fisher_decomposition
+from valvol.methods.panel import pivot_bases, raise_nonpositive, with_horizons
 
 CONVENTIONS: tuple[str, ...] = ("annual_overlap_exact", "fisher")
 CONTRIBUTION_COLUMNS = [
@@ -155,38 +155,6 @@ def step_values(series: pd.DataFrame) -> pd.DataFrame:
     return h.drop(columns=["c_o", "k_o", "C_p", "K_p", "ann_year", "unpriced_o"])
 
 
-def fisher_price_contributions_arrays(
-    p0: np.ndarray, p1: np.ndarray, q0: np.ndarray, q1: np.ndarray
-) -> tuple[np.ndarray, float, float]:
-    """Price-side contributions to the change of a Fisher price index, one set of items.
-
-    Parameters
-    ----------
-    p0, p1, q0, q1
-        Prices and quantities of each item in the old and new period; items subtracted
-        from the aggregate (imports) enter with negative quantities.
-
-    Returns
-    -------
-    tuple
-        (contributions in pp, Fisher price relative P^F, Fisher quantity relative Q^F).
-
-    Notes
-    -----
-    ctr_i = 100 (q_{i,0} + q_{i,1}/Q^F)(p_{i,1} - p_{i,0}) / sum_j (q_{j,0} + q_{j,1}/Q^F) p_{j,0},
-    P^F = sqrt(P^L P^P), Q^F = (V_1/V_0)/P^F; sum_i ctr_i = 100 (P^F - 1) exactly
-    (METHODS.md section 3.5, price side).
-
-    References
-    ----------
-    BEA, *A Guide to the NIPAs*, appendix 3; Statistics Canada, *User Guide: Canadian
-    System of Macroeconomic Accounts* (13-017-X, 2008), Table 2.12 (volume side).
-    """
-    arrays = [np.asarray(a, dtype="float64") for a in (p0, p1, q0, q1)]
-    ctr, pf, qf = _fisher_core(*arrays, np.zeros(len(arrays[0]), dtype="int64"))
-    return ctr, float(pf[0]), float(qf[0])
-
-
 def deflator_contributions(
     levels: pd.DataFrame, *, hierarchy: Hierarchy, convention: str = "annual_overlap_exact"
 ) -> pd.DataFrame:
@@ -248,7 +216,7 @@ def deflator_contributions(
     without them its first-year quarterly deflators are not given and the rows are left
     out.
 
-    ``fisher``: the price-side Fisher formula of `fisher_price_contributions_arrays` between the two
+    ``fisher``: the price side of `valvol.methods.index_numbers.fisher_decomposition` between the two
     periods compared, with p_i = c_i/CLV_i and q_i = s_i CLV_i (imports at negative
     quantities); a sign-changing component is priced at the aggregate's implicit deflator
     (q_i = s_i c_i / p_Z), a valvol convention. Year-on-year quarterly rows use the direct
@@ -271,11 +239,11 @@ def deflator_contributions(
     aggs = wide.loc[wide["item"].isin(edges["aggregate"])]
     if convention == "fisher":
         positive = edges.loc[~edges["item"].map(hierarchy.is_sign_changing).astype(bool), "item"]
-        _raise_non_positive(wide.loc[wide["item"].isin(positive)], ("current", "chain_linked"))
-        _raise_non_positive(aggs, ("current", "chain_linked"))
+        raise_nonpositive(wide.loc[wide["item"].isin(positive)], ("current", "chain_linked"))
+        raise_nonpositive(aggs, ("current", "chain_linked"))
         out = _fisher(wide, edges, hierarchy)
     else:
-        _raise_non_positive(aggs, ("current", "previous_year", "chain_linked"))
+        raise_nonpositive(aggs, ("current", "previous_year", "chain_linked"))
         out = _annual_overlap_exact(wide, edges)
     return _finish(out)
 
@@ -333,7 +301,7 @@ def income_side_contributions(levels: pd.DataFrame, *, real_gdp_item: str = "B1G
             for r in inc.index[partial]
         ])
     gdp = wide.loc[wide["item"].eq(real_gdp_item), keys + ["current", "chain_linked"]].dropna()
-    _raise_non_positive(gdp.assign(item=real_gdp_item), ("current", "chain_linked"))
+    raise_nonpositive(gdp.assign(item=real_gdp_item), ("current", "chain_linked"))
     m = inc.dropna().reset_index().merge(gdp, on=keys, how="inner")
     x = m["chain_linked"]
     units = {label: m[item] / x for item, label in INCOME_ITEMS.items()}
@@ -398,7 +366,7 @@ def _fisher(wide: pd.DataFrame, edges: pd.DataFrame, hierarchy: Hierarchy) -> pd
     if unpriced.any():
         bad = m.loc[unpriced].drop_duplicates(["economy", "aggregate"])
         raise InputError([
-            Problem(economy=r.economy, item=r.aggregate, period=_label(r.year, r.quarter),
+            Problem(economy=r.economy, item=r.aggregate, period=period_label([r.year], [r.quarter])[0],
                     price_basis="chain_linked",
                     reason=f"no chain-linked value to price the sign-changing component {r.item}")
             for r in bad.itertuples(index=False)
@@ -408,25 +376,11 @@ def _fisher(wide: pd.DataFrame, edges: pd.DataFrame, hierarchy: Hierarchy) -> pd
     s = m["sign"].to_numpy()
     q1, q0 = s * m["c"].to_numpy() / p1, s * m["c_o"].to_numpy() / p0
     codes = m.groupby(["aggregate", *_ROW], sort=False).ngroup().to_numpy()
-    ctr, pf, _ = _fisher_core(p0, p1, q0, q1, codes)
+    ctr, _, pf = fisher_decomposition(q0, q1, p0, p1, codes)
     m["contribution_pp"] = ctr
     chained = 100.0 * ((m["zc"] / m["zv"]) / (m["zc_o"] / m["zv_o"]) - 1.0)
     m["aggregate_growth_pct"] = chained.fillna(pd.Series(100.0 * (pf - 1.0), index=m.index))
     return m
-
-
-def _fisher_core(p0, p1, q0, q1, codes):
-    """Fisher price contributions with group sums over ``codes`` (one aggregate-period each)."""
-    n = int(codes.max()) + 1 if len(codes) else 0
-
-    def gsum(x: np.ndarray) -> np.ndarray:
-        return np.bincount(codes, weights=x, minlength=n)[codes]
-
-    v0, v1 = gsum(p0 * q0), gsum(p1 * q1)
-    pf = np.sqrt((gsum(p1 * q0) / v0) * (v1 / gsum(p0 * q1)))
-    qf = (v1 / v0) / pf
-    w = q0 + q1 / qf
-    return 100.0 * w * (p1 - p0) / gsum(w * p0), pf, qf
 
 
 def _chained_growth(wide: pd.DataFrame, edges: pd.DataFrame) -> pd.DataFrame:
@@ -448,7 +402,7 @@ def _require_components(m: pd.DataFrame, wide: pd.DataFrame, has: np.ndarray | p
     bad = m.loc[gap & is_reported]
     if len(bad):
         raise InputError([
-            Problem(economy=r.economy, item=r.item, period=_label(r.year, r.quarter),
+            Problem(economy=r.economy, item=r.item, period=period_label([r.year], [r.quarter])[0],
                     reason=f"component of {r.aggregate} lacks a value needed for its {r.horizon} change")
             for r in bad.drop_duplicates(["economy", "item", "year", "quarter"]).itertuples(index=False)
         ])

@@ -34,7 +34,7 @@ from valvol.errors import ConfigError, InputError, Problem
 from valvol.frames import period_label
 from valvol.hierarchy import Hierarchy
 from valvol.methods.deflator_contributions import first_year_values, step_values
-from valvol.methods.deflators import _raise_non_positive, pivot_bases, with_horizons
+from valvol.methods.panel import pivot_bases, raise_nonpositive, with_horizons
 
 NUMERAIRES: tuple[str, ...] = ("trade_average", "import", "export", "domestic_final_demand")
 GDP, EXPORTS, IMPORTS, HOUSEHOLD, DOMESTIC_DEMAND = "B1GQ", "P6", "P7", "P31_S14", "P3_P5"
@@ -138,7 +138,7 @@ def price_gaps(
         raise ConfigError(f"price gaps: numeraire {numeraire!r} is not one of {', '.join(NUMERAIRES)}")
     wide = pivot_bases(levels)
     positive = [GDP, EXPORTS, IMPORTS, HOUSEHOLD, DOMESTIC_DEMAND]
-    _raise_non_positive(wide.loc[wide["item"].isin(positive)], ("current", "chain_linked"))
+    raise_nonpositive(wide.loc[wide["item"].isin(positive)], ("current", "chain_linked"))
     series = {"Z": _series(wide, hierarchy, GDP), "X": _series(wide, hierarchy, EXPORTS),
               "M": _series(wide, hierarchy, IMPORTS)}
     gaps, household = _gaps(wide, hierarchy, series)

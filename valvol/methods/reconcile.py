@@ -31,13 +31,13 @@ import pandas as pd
 import scipy.sparse as sp
 
 from valvol.errors import ConfigError, InputError, Problem
+from valvol.frames import period_label
 from valvol.methods.benchmark import (
     ON_NONPOSITIVE,
     YEAR_FROM_QUARTERS,
     check_choice,
     difference_gram,
     key_columns,
-    period_labels,
     require_columns,
     series_codes,
     series_problem,
@@ -98,7 +98,7 @@ def _arrange(components: pd.DataFrame, by: list[str]) -> _Layout:
     frame, sid, year, quarter, t, new, step = sorted_quarters(components, key, "component", "a component's")
     n = len(frame)
     if "period" not in frame.columns:
-        frame["period"] = period_labels(year, quarter)
+        frame["period"] = period_label(year, quarter).to_numpy()
     starts = np.flatnonzero(new)
     ends = np.r_[starts[1:], n] - 1
     series = frame.loc[starts, key].reset_index(drop=True)
@@ -124,7 +124,7 @@ def _arrange(components: pd.DataFrame, by: list[str]) -> _Layout:
     tq = t0[sys_q] + np.arange(int(nq.sum())) - qoff[sys_q]
     quarters = systems.take(sys_q).reset_index(drop=True)
     quarters["year"], quarters["quarter"] = tq // 4, tq % 4 + 1
-    quarters["period"] = period_labels(tq // 4, tq % 4 + 1)
+    quarters["period"] = period_label(tq // 4, tq % 4 + 1).to_numpy()
     quarters["sys"] = sys_q
     sys_e = sys_s[sid]
     return _Layout(frame, sid, qoff[sys_e] + t - t0[sys_e], series, systems, quarters, t0, qoff, nq)
