@@ -164,6 +164,7 @@ def derive_volumes(con: duckdb.DuckDBPyConnection, config: Config) -> pd.DataFra
     """
     from valvol.methods import chainlink
     from valvol.methods.panel import levels_wide, raise_nonpositive
+    from valvol.methods.reference_year import reference_year_of
 
     levels = _levels(con)
     # deflators and growth rates are ratios: a positive series must be positive at every basis
@@ -196,7 +197,7 @@ def derive_volumes(con: duckdb.DuckDBPyConnection, config: Config) -> pd.DataFra
             hierarchy=h,
             method=config.volumes.method,
             reference_year=config.reference_year if config.reference_year is not None
-            else _given_reference_year(given, current),
+            else reference_year_of(pd.concat([given, current], ignore_index=True)),
             annual_rate=config.levels_at_annual_rate,
         )
         if config.volumes.method != "annual_overlap" and config.volumes.benchmark_to_years:
@@ -240,38 +241,17 @@ def _require_given_volumes(current: pd.DataFrame, given: pd.DataFrame, h) -> Non
         ])
 
 
-def _given_reference_year(given: pd.DataFrame, current: pd.DataFrame) -> int | None:
-    """The year in which given annual volumes equal current prices (None when none is found)."""
-    if given.empty:
-        return None
-    key = ["economy", "item", "year"]
-    a = given[given["frequency"] == "A"].merge(current[current["frequency"] == "A"], on=key, suffixes=("_v", "_c"))
-    if a.empty:
-        return None
-    a = a[a["value_c"] > 0]
-    close = a[(a["value_v"] - a["value_c"]).abs() <= 1e-4 * a["value_c"].abs() + 0.5]
-    if close.empty:
-        return None
-    return int(close["year"].mode().iloc[0])
-
-
 def _rereference_given(given: pd.DataFrame, current: pd.DataFrame, config: Config) -> pd.DataFrame:
     """Given volumes of economies not already referenced to ``reference_year``, re-referenced."""
-    from valvol.methods import chainlink
+    from valvol.methods.reference_year import reference_year_of, rereference
 
     r = config.reference_year
-    needs = []
-    for economy, vol in given.groupby("economy", sort=True):  # one decision per economy, not per series
-        ref = _given_reference_year(vol, current[current["economy"] == economy])
-        if ref != r:
-            needs.append(economy)
+    found = reference_year_of(pd.concat([given, current], ignore_index=True))
+    needs = [e for e in pd.unique(given["economy"]) if found.get(e) != r]
     if not needs:
         return pd.DataFrame(columns=LEVEL_COLUMNS)
-    moved = chainlink.rereference(
-        given[given["economy"].isin(needs)], current[current["economy"].isin(needs)], r,
-        hierarchy=config.hierarchy,
-    )
-    return moved
+    return rereference(given[given["economy"].isin(needs)], current[current["economy"].isin(needs)], r,
+                       hierarchy=config.hierarchy)
 
 
 def _chain_comparison_checks(cmp: pd.DataFrame) -> pd.DataFrame:

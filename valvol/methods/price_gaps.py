@@ -35,14 +35,13 @@ from valvol.frames import period_label
 from valvol.hierarchy import Hierarchy
 from valvol.methods.deflator_contributions import first_year_values, step_values
 from valvol.methods.panel import pivot_bases, raise_nonpositive, with_horizons
+from valvol.methods.reference_year import reference_year_candidates
 
 NUMERAIRES: tuple[str, ...] = ("trade_average", "import", "export", "domestic_final_demand")
 GDP, EXPORTS, IMPORTS, HOUSEHOLD, DOMESTIC_DEMAND = "B1GQ", "P6", "P7", "P31_S14", "P3_P5"
 DOMESTIC_DEMAND_PARTS: tuple[tuple[str, int], ...] = (("P3", 1), ("P5", 1))
 DOMESTIC_FINAL_DEMAND_PARTS: tuple[tuple[str, int], ...] = (("P3", 1), ("P51G", 1))
 MEASURE_COLUMNS = ["economy", "period", "frequency", "year", "quarter", "measure", "horizon", "value"]
-#: Relative tolerance when finding the reference year as the year where CLV = current.
-REFERENCE_TOLERANCE = 1e-6
 
 _KEYS = ["economy", "frequency", "year", "quarter"]
 _ROW = ["economy", "frequency", "year", "quarter", "horizon"]
@@ -241,13 +240,14 @@ def _filled_from_parts(wide: pd.DataFrame, tree: pd.DataFrame) -> pd.DataFrame:
 
 
 def _reference_years(z: pd.DataFrame, reference_year: int | None) -> pd.DataFrame:
-    """Reference year per economy: given, or where annual chain-linked GDP = current GDP."""
+    """Reference year per economy: given, or found in GDP's annual values (`reference_year_candidates`)."""
     if reference_year is not None:
         return pd.DataFrame({"economy": z["economy"].unique(), "ref": int(reference_year)})
     ann = z.loc[z["frequency"].eq("A")].dropna(subset=["c", "v"])
-    ann = ann.assign(dev=(ann["v"] / ann["c"] - 1.0).abs())
-    ann = ann.loc[ann["dev"] < REFERENCE_TOLERANCE].sort_values(["economy", "dev"], kind="mergesort")
-    return ann.drop_duplicates("economy")[["economy", "year"]].rename(columns={"year": "ref"})
+    levels = pd.concat([ann.assign(price_basis="current", value=ann["c"]),
+                        ann.assign(price_basis="chain_linked", value=ann["v"])], ignore_index=True)
+    found = reference_year_candidates(levels.assign(item=GDP)).drop_duplicates("economy")
+    return found.rename(columns={"year": "ref"})[["economy", "ref"]]
 
 
 def _rebase(df: pd.DataFrame, cols: list[str], refs: pd.DataFrame) -> pd.DataFrame:
