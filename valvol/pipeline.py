@@ -67,6 +67,8 @@ DB_FILE = db.DB_FILE
 REVISION_TABLES = ("revisions", "revision_summary")
 #: Input rows per chunk at most when the chunk size is automatic (bounds a chunk's memory).
 CHUNK_ROWS = 400_000
+#: Input rows per chunk at least, when the chunk size is automatic and the panel is small.
+MIN_CHUNK_ROWS = 100_000
 
 
 # ----------------------------------------------------------------------------- the run
@@ -240,10 +242,9 @@ def write(run: Run) -> None:
     small = {"reconciliation": workfiles.read_table(work / RECONCILIATION_FILE)}
     revised_against, revisions = _revisions_against_latest(run.out_dir, work)
     counts |= writers.write_tables(work, small | revisions)
-    store = submit(run, writers.store_database, work, list(counts))
     (work / "charts").mkdir(exist_ok=True)
     drawn = draw_charts(work, options.get("chart_economies")) if options.get("charts", True) else []
-    store.result()
+    writers.store_database(work, list(counts))
     status = pq.read_table(work / "checks.parquet", columns=["status"]).column("status").to_pandas()
     timings = _timings(work) | {"write": round(time.perf_counter() - started, 3)}
     for name in work.iterdir():  # the work files of earlier stages
@@ -297,17 +298,22 @@ def chunks(run: Run) -> list[Chunk]:
 def plan_chunks(rows: dict[str, int], chunk_size: int = 0, workers: int = 1) -> list[Chunk]:
     """Split economies (with their input row counts) into chunks.
 
-    ``chunk_size`` > 0: that many economies per chunk. Automatic (0): as many chunks as
-    ``workers``, more when a chunk would exceed `CHUNK_ROWS` input rows.
+    ``chunk_size`` > 0: that many economies per chunk. Automatic (0): one chunk per
+    `MIN_CHUNK_ROWS` input rows, up to ``workers`` chunks (a small panel is one chunk: a
+    worker process costs more than it saves there), and more whenever a chunk would exceed
+    `CHUNK_ROWS` input rows.
 
-    >>> [c.economies for c in plan_chunks({"A": 10, "B": 10, "C": 10}, workers=2)]
+    >>> [c.economies for c in plan_chunks({"A": 10**5, "B": 10**5, "C": 10**5}, workers=2)]
     [('A', 'B'), ('C',)]
+    >>> [c.economies for c in plan_chunks({"A": 10, "B": 10, "C": 10}, workers=2)]
+    [('A', 'B', 'C')]
     """
     economies = sorted(rows)
     if not economies:
         return []
     if chunk_size <= 0:
-        n = max(workers, math.ceil(sum(rows.values()) / CHUNK_ROWS))
+        total = sum(rows.values())
+        n = max(min(workers, math.ceil(total / MIN_CHUNK_ROWS)), math.ceil(total / CHUNK_ROWS))
         chunk_size = math.ceil(len(economies) / min(n, len(economies)))
     return [Chunk(i, tuple(economies[start:start + chunk_size]))
             for i, start in enumerate(range(0, len(economies), chunk_size))]

@@ -4,8 +4,8 @@ Tables arrive fully ordered (each chunk's ``out_<table>.sql`` statement orders b
 economy first, and chunks are contiguous runs of economies taken in sorted order). Each is
 written by pyarrow as a single file with a fixed row-group size, so its bytes do not depend on
 how the panel was chunked (a multi-threaded partitioned write could reorder rows). The
-vintage's own ``valvol.duckdb`` is loaded from those files, single-threaded, so it holds the
-same rows in the same order.
+vintage's own ``valvol.duckdb`` is loaded from those files with insertion order preserved, so it
+holds the same rows in the same order.
 """
 
 from __future__ import annotations
@@ -63,7 +63,7 @@ def write_tables(work: Path, tables: dict[str, pa.Table]) -> dict[str, int]:
 
 def store_database(work: Path, names: Sequence[str]) -> None:
     """Load the published tables ``names`` into ``work/valvol.duckdb`` for SQL users."""
-    con = db.connect(work / db.DB_FILE, threads=1)  # one thread: the rows keep the files' order
+    con = db.connect(work / db.DB_FILE)  # rows keep the files' order (DuckDB preserves insertion order)
     try:
         for name in names:
             db.run_sql(con, f"out_store_{name}", path=str(work / f"{name}.parquet"))
