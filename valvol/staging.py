@@ -18,7 +18,7 @@ from valvol.config import Config
 def stage_accounts(con: duckdb.DuckDBPyConnection, rows: pd.DataFrame, config: Config) -> None:
     """Stage validated rows and derive annual values, aggregates and identity residuals.
 
-    Tables created: ``stg_input``, ``stg_hierarchy``, ``levels`` (inputs, annual values of
+    Tables created: ``stg_hierarchy``, ``levels`` (inputs, annual values of
     complete years, aggregates formed bottom-up at current and previous-year prices),
     ``identity_residuals`` and ``annual_vs_quarters``.
     """
@@ -29,7 +29,6 @@ def stage_accounts(con: duckdb.DuckDBPyConnection, rows: pd.DataFrame, config: C
     db.register(con, "hierarchy_edges", edges)
     db.run_sql(con, "stg_hierarchy")
     con.unregister("hierarchy_edges")
-    db.run_sql(con, "int_levels_init")
     db.run_sql(con, "int_annual_from_quarters", annual_rate=config.levels_at_annual_rate)
     for aggregate in config.hierarchy.order():  # bottom-up; each statement covers every economy
         db.run_sql(con, "int_aggregate", aggregate=aggregate)
