@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from collections.abc import Sequence
 
 import numpy as np
@@ -32,3 +33,16 @@ def unique_key(columns: Sequence[str]) -> pa.Check:
         return pd.Series(~pd.Series(key_codes(frame, cols)).duplicated(keep=False).to_numpy(), index=frame.index)
 
     return pa.Check(unique, name="unique_key", error=f"key ({', '.join(cols)}) not unique")
+
+
+def matches(pattern: str, error: str | None = None) -> pa.Check:
+    """Column check: every value matches the regular expression ``pattern`` (tested once per
+    distinct value, so a column of millions of rows with a few hundred labels costs little)."""
+    compiled = re.compile(pattern)
+
+    def match(values: pd.Series) -> pd.Series:
+        distinct = pd.unique(values)
+        good = [v for v in distinct if isinstance(v, str) and compiled.match(v)]
+        return values.isin(good)
+
+    return pa.Check(match, name="matches", error=error or f"does not match {pattern}")

@@ -14,6 +14,7 @@ from collections.abc import Callable
 import numpy as np
 import pandas as pd
 import pandera.pandas as pa
+from valvol.schemas.checks import matches
 
 from valvol.frames import INDEX_BASES, INPUT_PRICE_BASES
 from valvol.hierarchy import ITEM_CODE
@@ -55,15 +56,15 @@ def input_rows(
             "source_file": pa.Column(str),
             "source_row": pa.Column("int64"),
             "economy": pa.Column(
-                str, pa.Check.str_matches(ECONOMY_PATTERN, error="economy code must be 2-16 characters of A-Z, 0-9, _")
+                str, matches(ECONOMY_PATTERN, error="economy code must be 2-16 characters of A-Z, 0-9, _")
             ),
             "period_text": pa.Column(
-                str, pa.Check.str_matches(PERIOD_PATTERN, error="period must be YYYY-Qn, YYYYQn or YYYY")
+                str, matches(PERIOD_PATTERN, error="period must be YYYY-Qn, YYYYQn or YYYY")
             ),
             "item": pa.Column(
                 str,
                 [
-                    pa.Check.str_matches(ITEM_CODE.pattern, error="item is not of the form of an SNA code"),
+                    matches(ITEM_CODE.pattern, error="item is not of the form of an SNA code"),
                     pa.Check(
                         allowed,
                         error="item is not a known SNA code nor a breakdown of one (CODE_SUFFIX, e.g. P52_PRIV): "

@@ -4,9 +4,9 @@ from __future__ import annotations
 
 import numpy as np
 import pandera.pandas as pa
-from valvol.schemas.checks import unique_key
+from valvol.schemas.checks import matches, unique_key
 
-_PERIOD = pa.Column(str, pa.Check.str_matches(r"^[0-9]{4}(-Q[1-4])?$"))
+_PERIOD = pa.Column(str, matches(r"^[0-9]{4}(-Q[1-4])?$", error="period must be YYYY or YYYY-Qn"))
 _FREQ = pa.Column(str, pa.Check.isin(["Q", "A"]))
 _FINITE = pa.Check(np.isfinite, error="must be finite")
 
