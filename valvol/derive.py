@@ -226,11 +226,14 @@ def derive_volumes(con: duckdb.DuckDBPyConnection, config: Config) -> pd.DataFra
 
 
 def _require_given_volumes(current: pd.DataFrame, given: pd.DataFrame, h) -> None:
-    """Under ``[volumes] index = "fisher"`` every positive series needs its given chain-linked volume."""
-
+    """Under ``[volumes] index = "fisher"`` every positive series of the expenditure hierarchy (or
+    a breakdown of one) needs its given chain-linked volume; income items (D1, B2A3G, ...) have
+    none."""
     key = ["economy", "item"]
     have = given[key].drop_duplicates()
-    need = current[~current["item"].map(h.is_sign_changing)][key].drop_duplicates()
+    need = current[key].drop_duplicates()
+    chained = {i for i in pd.unique(need["item"]) if h.anchor(i) is not None and not h.is_sign_changing(i)}
+    need = need[need["item"].isin(chained)]
     missing = need.merge(have, on=key, how="left", indicator=True).query("_merge == 'left_only'")
     if len(missing):
         raise InputError([

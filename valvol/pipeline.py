@@ -192,19 +192,36 @@ def reconcile(run: Run) -> None:
 
 @_problems_as_data
 def derive(run: Run, chunk: Chunk) -> None:
-    """Derive every table of one chunk of economies in its own in-memory database."""
+    """Derive every table of one chunk of economies in its own in-memory database.
+
+    When a method finds problems in some economies, the chunk is derived again without them,
+    so that every economy's problems are those of the first step that fails for it, whatever
+    economies share its chunk; all of them are raised together at the end.
+    """
     from valvol.derive import derive_chunk
 
     folder = run.work / CHUNKS_DIR / chunk.name
     if folder.exists():  # a retried or re-run task starts clean
         shutil.rmtree(folder)
-    rows, indexes, checks = (workfiles.read_frame(run.work / name, chunk.economies)
-                             for name in (VALIDATED_FILE, INDEXES_FILE, RECONCILE_CHECKS_FILE))
-    staged = None
-    if (run.work / STAGED_FILE.format("levels")).exists():
-        staged = {name: workfiles.read_table(run.work / STAGED_FILE.format(name), chunk.economies)
-                  for name in STAGED_TABLES}
-    tables = derive_chunk(rows, run.config, staged=staged, indexes=indexes, extra_checks=checks)
+    economies, problems = list(chunk.economies), []
+    while economies:
+        rows, indexes, checks = (workfiles.read_frame(run.work / name, economies)
+                                 for name in (VALIDATED_FILE, INDEXES_FILE, RECONCILE_CHECKS_FILE))
+        staged = None
+        if (run.work / STAGED_FILE.format("levels")).exists():
+            staged = {name: workfiles.read_table(run.work / STAGED_FILE.format(name), economies)
+                      for name in STAGED_TABLES}
+        try:
+            tables = derive_chunk(rows, run.config, staged=staged, indexes=indexes, extra_checks=checks)
+            break
+        except InputError as err:
+            problems += err.problems
+            failing = {p.economy for p in err.problems}
+            if "" in failing or not failing & set(economies):  # a problem of the whole chunk
+                raise InputError(problems) from None
+            economies = [e for e in economies if e not in failing]
+    if problems:
+        raise InputError(problems)
     folder.mkdir(parents=True)
     for name, table in tables.items():
         workfiles.write_frame(folder / f"{name}.arrow", table)
@@ -300,8 +317,8 @@ def plan_chunks(rows: dict[str, int], chunk_size: int = 0, workers: int = 1) -> 
 
     ``chunk_size`` > 0: that many economies per chunk. Automatic (0): one chunk per
     `MIN_CHUNK_ROWS` input rows, up to ``workers`` chunks (a small panel is one chunk: a
-    worker process costs more than it saves there), and more whenever a chunk would exceed
-    `CHUNK_ROWS` input rows.
+    worker process costs more than it saves there), and more whenever chunks would hold more
+    than `CHUNK_ROWS` input rows on average.
 
     >>> [c.economies for c in plan_chunks({"A": 10**5, "B": 10**5, "C": 10**5}, workers=2)]
     [('A', 'B'), ('C',)]
