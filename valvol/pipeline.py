@@ -358,7 +358,7 @@ def _executor(run: Run):
         return None
     from joblib.externals.loky import get_reusable_executor
 
-    _POOLS.append(get_reusable_executor(max_workers=workers, timeout=60))
+    _POOLS.append(get_reusable_executor(max_workers=workers, timeout=300))
     return _POOLS[-1]
 
 
