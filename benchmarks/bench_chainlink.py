@@ -9,63 +9,11 @@ from __future__ import annotations
 
 import time
 
-import numpy as np
 import pandas as pd
+from synthetic import HIERARCHY, synthetic_panel
 
-from valvol.frames import LEVEL_COLUMNS, period_label
-from valvol.hierarchy import Hierarchy
 from valvol.methods.chainlink import chain_link
 from valvol.methods.contributions import CONVENTIONS, volume_contributions
-
-HIERARCHY = Hierarchy.from_mapping({
-    "B1GQ": ["P3", "P5", "P6", "-P7", "YA1"],
-    "P3": ["P31_S14", "P3_S15", "P3_S13"],
-    "P5": ["P51G", "P52"],
-    "P6": ["P61", "P62"],
-    "P7": ["P71", "P72"],
-})
-#: leaf -> (quantity low, high); P52 and YA1 change sign
-LEAVES = {"P31_S14": (550, 650), "P3_S15": (20, 30), "P3_S13": (180, 220), "P51G": (150, 200),
-          "P52": (-10, 10), "P61": (150, 200), "P62": (100, 150), "P71": (200, 250), "P72": (80, 120),
-          "YA1": (-5, 5)}
-
-
-def synthetic_panel(n_economies: int = 200, n_years: int = 30, seed: int = 0) -> pd.DataFrame:
-    """Levels panel (current and previous_year, Q and A) built from prices and quantities."""
-    rng = np.random.default_rng(seed)
-    n_q = 4 * n_years
-    shape = (n_economies, n_q)
-    yidx = np.arange(n_q) // 4
-    c, k = {}, {}
-    for item, (lo, hi) in LEAVES.items():
-        p = rng.uniform(0.8, 1.2, (n_economies, 1)) * np.cumprod(rng.uniform(0.99, 1.02, shape), axis=1)
-        q = rng.uniform(lo, hi, shape)
-        c[item] = p * q
-        w = np.abs(q)
-        num = np.add.reduceat(p * w, np.arange(0, n_q, 4), axis=1)
-        unit = num / np.add.reduceat(w, np.arange(0, n_q, 4), axis=1)
-        prev = np.concatenate([np.full((n_economies, 1), np.nan), unit[:, :-1]], axis=1)
-        k[item] = prev[:, yidx] * q
-    for agg in HIERARCHY.order():
-        comps = HIERARCHY.aggregates[agg]
-        c[agg] = sum(x.sign * c[x.item] for x in comps)
-        k[agg] = sum(x.sign * k[x.item] for x in comps)
-    econ = np.array([f"E{i:03d}" for i in range(n_economies)], dtype=object)
-    parts = []
-    for basis, table in (("current", c), ("previous_year", k)):
-        for item, vals in table.items():
-            ann = vals.reshape(n_economies, n_years, 4).sum(axis=2)
-            for freq, v, years, quarters in (
-                    ("Q", vals, 2000 + yidx, np.arange(n_q) % 4 + 1),
-                    ("A", ann, 2000 + np.arange(n_years), np.zeros(n_years, dtype="int64"))):
-                ok = np.isfinite(v)
-                e_idx, t_idx = np.nonzero(ok)
-                parts.append(pd.DataFrame({"economy": econ[e_idx], "item": item, "price_basis": basis,
-                                           "frequency": freq, "year": years[t_idx], "quarter": quarters[t_idx],
-                                           "value": v[ok]}))
-    out = pd.concat(parts, ignore_index=True)
-    out["period"] = period_label(out["year"], out["quarter"]).to_numpy()
-    return out[LEVEL_COLUMNS]
 
 
 def main() -> None:

@@ -14,8 +14,9 @@ from collections.abc import Callable
 import numpy as np
 import pandas as pd
 import pandera.pandas as pa
+from valvol.schemas.checks import matches
 
-from valvol.frames import PRICE_BASES
+from valvol.frames import INDEX_BASES, INPUT_PRICE_BASES
 from valvol.hierarchy import ITEM_CODE
 from valvol.periods import PERIOD_PATTERN
 
@@ -41,26 +42,29 @@ def input_rows(
     ``is_allowed`` and ``is_sign_changing`` judge an item code (`valvol.hierarchy.Hierarchy`:
     a breakdown such as ``P52_PRIV`` follows its transaction ``P52``). Price indexes (e.g. a
     consumer price index ``CPI``) come with ``price_basis`` ``index``, monthly (``YYYY-MM``)
-    or quarterly, strictly positive; accounts items never do.
+    or quarterly, strictly positive; accounts items never do. Accounts items may come as a
+    ``volume_index`` or a ``price_index`` (reference year = 100; `valvol.methods.index_bases`),
+    strictly positive, and never for a sign-changing item: a deflator of a series that
+    changes sign does not exist and a chain index of it is meaningless.
     """
     indexes = sorted(price_indexes)
     allowed = _per_code(lambda code: code in price_indexes or is_allowed(code))
     changes_sign = _per_code(is_sign_changing)
-    bases = (*PRICE_BASES, INDEX_BASIS)
+    bases = (*INPUT_PRICE_BASES, INDEX_BASIS)
     return pa.DataFrameSchema(
         {
             "source_file": pa.Column(str),
             "source_row": pa.Column("int64"),
             "economy": pa.Column(
-                str, pa.Check.str_matches(ECONOMY_PATTERN, error="economy code must be 2-16 characters of A-Z, 0-9, _")
+                str, matches(ECONOMY_PATTERN, error="economy code must be 2-16 characters of A-Z, 0-9, _")
             ),
             "period_text": pa.Column(
-                str, pa.Check.str_matches(PERIOD_PATTERN, error="period must be YYYY-Qn, YYYYQn or YYYY")
+                str, matches(PERIOD_PATTERN, error="period must be YYYY-Qn, YYYYQn or YYYY")
             ),
             "item": pa.Column(
                 str,
                 [
-                    pa.Check.str_matches(ITEM_CODE.pattern, error="item is not of the form of an SNA code"),
+                    matches(ITEM_CODE.pattern, error="item is not of the form of an SNA code"),
                     pa.Check(
                         allowed,
                         error="item is not a known SNA code nor a breakdown of one (CODE_SUFFIX, e.g. P52_PRIV): "
@@ -105,6 +109,18 @@ def input_rows(
                 lambda df: ~df["price_basis"].eq(INDEX_BASIS) | ~(df["value"] <= 0),
                 error="a price index must be positive",
                 name="index_positive",
+            ),
+            pa.Check(
+                lambda df: ~df["price_basis"].isin(INDEX_BASES) | ~(df["value"] <= 0),
+                error="a volume_index or price_index must be positive (reference year = 100)",
+                name="index_basis_positive",
+            ),
+            pa.Check(
+                lambda df: ~df["price_basis"].isin(INDEX_BASES) | ~changes_sign(df["item"]),
+                error="an item that changes sign (inventories, valuables, discrepancy, external balance, net "
+                      "taxes, their breakdowns, sign_changing) has no price index and no meaningful volume "
+                      "index: give it at current and previous-year prices or as chain_linked",
+                name="index_basis_sign_changing",
             ),
         ],
         strict=False,

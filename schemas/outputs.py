@@ -4,8 +4,9 @@ from __future__ import annotations
 
 import numpy as np
 import pandera.pandas as pa
+from valvol.schemas.checks import matches, unique_key
 
-_PERIOD = pa.Column(str, pa.Check.str_matches(r"^[0-9]{4}(-Q[1-4])?$"))
+_PERIOD = pa.Column(str, matches(r"^[0-9]{4}(-Q[1-4])?$", error="period must be YYYY or YYYY-Qn"))
 _FREQ = pa.Column(str, pa.Check.isin(["Q", "A"]))
 _FINITE = pa.Check(np.isfinite, error="must be finite")
 
@@ -18,7 +19,7 @@ levels = pa.DataFrameSchema(
         "price_basis": pa.Column(str, pa.Check.isin(["current", "previous_year", "chain_linked"])),
         "value": pa.Column(float, _FINITE),
     },
-    unique=["economy", "period", "item", "price_basis"],
+    checks=[unique_key(["economy", "period", "item", "price_basis"])],
     strict=True,
     name="levels",
 )
@@ -31,7 +32,7 @@ deflators = pa.DataFrameSchema(
         "item": pa.Column(str),
         "deflator": pa.Column(float, [_FINITE, pa.Check.gt(0)]),
     },
-    unique=["economy", "period", "item"],
+    checks=[unique_key(["economy", "period", "item"])],
     strict=True,
     name="deflators",
 )
@@ -46,7 +47,7 @@ growth = pa.DataFrameSchema(
         "horizon": pa.Column(str, pa.Check.isin(["prev_period", "prev_year"])),
         "pct": pa.Column(float, _FINITE),
     },
-    unique=["economy", "period", "item", "measure", "horizon"],
+    checks=[unique_key(["economy", "period", "item", "measure", "horizon"])],
     strict=True,
     name="growth",
 )
@@ -77,7 +78,7 @@ contributions = pa.DataFrameSchema(
         "aggregate_growth_pct": pa.Column(float, _FINITE),
         "residual_pp": pa.Column(float, _FINITE),
     },
-    unique=["economy", "period", "aggregate", "item", "horizon"],
+    checks=[unique_key(["economy", "period", "aggregate", "item", "horizon"])],
     strict=True,
     name="contributions",
 )
@@ -91,7 +92,7 @@ price_gaps = pa.DataFrameSchema(
         "horizon": pa.Column(str),
         "value": pa.Column(float, _FINITE),
     },
-    unique=["economy", "period", "measure", "horizon"],
+    checks=[unique_key(["economy", "period", "measure", "horizon"])],
     strict=True,
     name="price_gaps",
 )
@@ -132,11 +133,49 @@ reconciliation = pa.DataFrameSchema(
         "growth_before_pct": pa.Column(float, nullable=True),
         "growth_after_pct": pa.Column(float, nullable=True),
     },
-    unique=["economy", "period", "item", "price_basis", "step"],
+    checks=[unique_key(["economy", "period", "item", "price_basis", "step"])],
     strict=True,
     name="reconciliation",
 )
 
+revisions = pa.DataFrameSchema(
+    {
+        "economy": pa.Column(str),
+        "period": _PERIOD,
+        "frequency": _FREQ,
+        "item": pa.Column(str),
+        "measure": pa.Column(str),
+        "earlier": pa.Column(float, nullable=True),
+        "later": pa.Column(float, nullable=True),
+        "revision": pa.Column(float, nullable=True),
+        "reference_year_changed": pa.Column(bool),
+    },
+    strict=True,
+    name="revisions",
+)
+
+revision_summary = pa.DataFrameSchema(
+    {
+        "economy": pa.Column(str),
+        "frequency": _FREQ,
+        "item": pa.Column(str),
+        "measure": pa.Column(str),
+        "n": pa.Column("int64", pa.Check.ge(1)),
+        "mr": pa.Column(float),
+        "mar": pa.Column(float, pa.Check.ge(0)),
+        "rmar": pa.Column(float, nullable=True),
+        "rmsr": pa.Column(float, pa.Check.ge(0)),
+        "sd": pa.Column(float, nullable=True),
+        "t_stat": pa.Column(float, nullable=True),
+        "critical_value": pa.Column(float, nullable=True),
+        "significant": pa.Column("boolean", nullable=True),
+        "test_convention": pa.Column(str),
+    },
+    strict=True,
+    name="revision_summary",
+)
+
+#: Every published table and its model; a table without a model is never written.
 TABLES = {
     "levels": levels,
     "deflators": deflators,
@@ -147,4 +186,6 @@ TABLES = {
     "income_contributions": contributions,
     "price_gaps": price_gaps,
     "reconciliation": reconciliation,
+    "revisions": revisions,
+    "revision_summary": revision_summary,
 }

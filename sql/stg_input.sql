@@ -1,6 +1,7 @@
--- Staging: the validated input rows, typed. Source of every later table.
--- input_rows is a frame registered by valvol.pipeline (already parsed and validated).
-CREATE OR REPLACE TABLE stg_input AS
+-- Staging: the validated input rows, typed, become the first rows of the working levels panel
+-- (input_rows is a frame registered by valvol.staging, already parsed and validated).
+-- origin: input | annual (sum or mean of quarters) | aggregate (signed sum) | chain_linked | rereferenced
+CREATE OR REPLACE TABLE levels AS
 SELECT
     economy::VARCHAR      AS economy,
     item::VARCHAR         AS item,
@@ -10,6 +11,5 @@ SELECT
     quarter::BIGINT       AS quarter,
     period::VARCHAR       AS period,
     value::DOUBLE         AS value,           -- unit of the accounts, as given
-    source_file::VARCHAR  AS source_file,
-    source_row::BIGINT    AS source_row
+    'input'               AS origin
 FROM input_rows;

@@ -37,6 +37,12 @@ def test_full_file_is_read(tmp_path):
         ({"checks": {"tolerance": 1}}, "unknown key(s) in [checks]"),
         ({"volumes": {"method": "chain"}}, "must be one of"),
         ({"contributions": {"convention": "ons"}}, "must be one of"),
+        ({"carry_columns": "obs_status"}, "carry_columns must be a list of lower-case column names"),
+        ({"carry_columns": ["OBS_STATUS"]}, "carry_columns must be a list of lower-case column names"),
+        ({"carry_columns": ["unit"]}, "carry_columns: unit is a column valvol reads or adds itself"),
+        ({"carry_columns": ["derived_from"]}, "carry_columns: derived_from is a column valvol reads or adds"),
+        ({"carry_columns": ["obs_status", "obs_status"]}, "carry_columns lists a column twice"),
+        ({"checks": {"index_tolerance": -0.05}}, "[checks] index_tolerance must be a finite non-negative number"),
     ],
 )
 def test_bad_settings_are_config_errors(raw, fragment):
@@ -67,3 +73,14 @@ def test_bad_adjustment_settings(raw, fragment):
     with pytest.raises(ConfigError) as err:
         config_from_mapping(raw, source="v.toml")
     assert fragment in str(err.value)
+
+
+def test_carried_columns_and_index_tolerance(tmp_path):
+    # README, configuration: carry_columns (top level) and [checks] index_tolerance
+    (tmp_path / "valvol.toml").write_text('carry_columns = ["obs_status", "conf_status"]\n[checks]\n'
+                                          'index_tolerance = 0.005\n')
+    cfg = load_config(tmp_path)
+    assert cfg.carry_columns == ("obs_status", "conf_status")
+    assert cfg.checks.index_tolerance == 0.005
+    assert cfg.as_dict()["carry_columns"] == ["obs_status", "conf_status"]
+    assert Config().carry_columns == () and Config().checks.index_tolerance == 0.05

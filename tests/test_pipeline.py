@@ -141,3 +141,35 @@ def test_one_quarter_overlap_quarters_are_benchmarked_to_the_years(demo_dir, tmp
     assert ((q - a.reindex(q.index)).abs() / a.reindex(q.index)).max() < 1e-9
     assert abs(a.loc["2020"] - acc.query("item == 'B1GQ' and price_basis == 'current' and "
                                          "period.str.startswith('2020')")["value"].sum()) < 1e-6
+
+
+def test_first_year_without_previous_year_prices_gets_its_first_links(demo_dir, demo_out, tmp_path):
+    # the demo without its 2012 values at previous-year prices: 2012 becomes the first year of
+    # every series, valued at its own average prices from the published chain-linked volumes
+    # (docs/derivations/first_link.md, sections 2-6). Deflator contributions then exist wherever
+    # volume contributions do, and the first links come close to those of the full demo, whose
+    # 2012 values at 2011 prices the generator made from the quantities and the 2011 unit values
+    # (sample_accounts/README.md, "How the data were built"): the first-year quarters' published
+    # volumes are rounded to 0.1, hence the tolerance.
+    acc = pd.read_csv(demo_dir / "accounts.csv")
+    folder = tmp_path / "acc"
+    shutil.copytree(demo_dir, folder, ignore=shutil.ignore_patterns("earlier_release", "first_estimate"))
+    acc[~((acc["price_basis"] == "previous_year") & acc["period"].str.startswith("2012"))].to_csv(
+        folder / "accounts.csv", index=False)
+    out = tmp_path / "out"
+    pipeline.rebuild(folder, out, charts=False)
+    key = ["period", "aggregate", "item", "horizon"]
+    vol = pd.read_parquet(out / "volume_contributions.parquet")
+    ctr = pd.read_parquet(out / "deflator_contributions.parquet")
+    assert set(map(tuple, vol[key].to_numpy())) == set(map(tuple, ctr[key].to_numpy()))
+    year = ctr["period"].str[:4]
+    first = ctr[year.eq("2012") | (year.eq("2013") & (ctr["horizon"].eq("prev_year") | ctr["period"].isin(["2013", "2013-Q1"])))]
+    assert {"2012-Q2", "2013", "2013-Q1"} <= set(first["period"])
+    full = pd.read_parquet(demo_out / "deflator_contributions.parquet")
+    m = first.merge(full, on=key, suffixes=("", "_full"))
+    assert len(m) == len(first)
+    assert (m["contribution_pp"] - m["contribution_pp_full"]).abs().max() < 2e-3
+    assert (m["aggregate_growth_pct"] - m["aggregate_growth_pct_full"]).abs().max() < 1e-12
+    gaps = pd.read_parquet(out / "price_gaps.parquet")
+    hh = gaps[(gaps["measure"] == "gap_household_vs_gdp") & gaps["period"].isin(["2012-Q2", "2013", "2013-Q1"])]
+    assert len(hh) == 1 + 2 + 2  # 2012-Q2 on Q1; 2013 (both labels); 2013-Q1 (both horizons)

@@ -162,3 +162,131 @@ def test_benchmarking_a_component_of_a_given_aggregate_is_refused(demo_dir, tmp_
         pipeline.rebuild(folder, tmp_path / "out", charts=False)
     assert any(p.item == "P5" and "identity_current fails" in p.reason for p in err.value.problems)
     assert not (tmp_path / "out" / "latest").exists()
+
+
+# --- past the last benchmark (a benchmarks file covering fewer years than the quarters) -------
+
+def index_indicator_folder(folder, toml):
+    """P51G quarters 2021..2023 on an index scale (near 100) and a benchmarks file in money
+    terms (near 5,000 a year) for 2021 and 2022 only, the ratio differing by year."""
+    rng = np.random.default_rng(3)
+    i = 100.0 * np.exp(np.cumsum(rng.normal(0.005, 0.01, 12)))
+    periods = [f"{y}-Q{q}" for y in (2021, 2022, 2023) for q in (1, 2, 3, 4)]
+    acc = pd.DataFrame({"economy": "XQ", "period": periods, "item": "P51G", "price_basis": "current",
+                        "value": i, "adjustment": "S", "unit": "tessel million"})
+    bench = pd.DataFrame({"economy": "XQ", "period": ["2021", "2022"], "item": "P51G", "price_basis": "current",
+                          "value": [round(i[:4].sum() * 12.4, 1), round(i[4:8].sum() * 12.9, 1)], "adjustment": "S",
+                          "unit": "tessel million"})
+    (folder / "annual").mkdir(parents=True)
+    acc.to_csv(folder / "accounts.csv", index=False)
+    bench.to_csv(folder / "annual" / "benchmarks.csv", index=False)
+    (folder / "valvol.toml").write_text(toml + 'benchmarks = "annual/benchmarks.csv"\n')
+    return i, bench["value"].to_numpy()
+
+
+def benchmarked_quarters(out):
+    lv = pd.read_parquet(out / "levels.parquet").query("item == 'P51G' and price_basis == 'current'")
+    return lv[lv["frequency"] == "Q"].sort_values("period")["value"].to_numpy()
+
+
+@pytest.mark.parametrize("method", ["proportional_denton", "additive_denton"])
+def test_quarters_past_the_last_benchmark_carry_the_last_ratio_or_difference(tmp_path, method):
+    """[benchmark] with a benchmarks file for 2021-2022 and quarters to 2023-Q4 (Denton 1971,
+    Cholette 1984, IMF QNA 2017 ch. 6). No constraint binds the 2023 quarters, so the
+    objective's terms past 2022-Q4 are zero at the minimum: the BI ratio X/I (proportional) or
+    X - I (additive) stays at its 2022-Q4 value (derived from the objective). Not the circular
+    benchmark that held 2023 to the index's own sum (about 420 against about 5,500)."""
+    folder = tmp_path / "bm"
+    i, bench = index_indicator_folder(folder, f'[benchmark]\nitems = ["P51G"]\nmethod = "{method}"\n')
+    out = tmp_path / "out"
+    pipeline.rebuild(folder, out, charts=False)
+    x = benchmarked_quarters(out)
+    np.testing.assert_allclose([x[:4].sum(), x[4:8].sum()], bench, rtol=1e-9)  # the given years, exact
+    if method == "proportional_denton":
+        np.testing.assert_allclose(x[8:], x[7] / i[7] * i[8:], rtol=1e-9)
+    else:
+        np.testing.assert_allclose(x[8:], i[8:] + (x[7] - i[7]), rtol=1e-9)
+    assert x[8:].sum() > 12 * i[8:].sum()
+    report = pd.read_parquet(out / "reconciliation.parquet").sort_values("period")
+    assert (report["constraint"].iloc[8:] == "annual benchmarks (extrapolated)").all()
+    assert list(report["constraint"].iloc[[0, 7]]) == ["annual benchmark 2021", "annual benchmark 2022"]
+    checks = pd.read_parquet(out / "checks.parquet")
+    after = checks[checks["rule"] == "benchmark_annual_after_current"]
+    assert sorted(after["period"]) == ["2021", "2022"] and (after["status"] == "pass").all()
+
+
+def test_chow_lin_past_the_last_benchmark_continues_the_fitted_relation(tmp_path):
+    """[benchmark] Chow-Lin, rho fixed at 0.5, constant and indicator, two benchmark years
+    (Chow & Lin 1971; IMF QNA 2017 ch. 6). Two years, two coefficients: the annual GLS fit is
+    exact, whatever rho, so the annual residuals and hence the quarterly ones are zero, and
+    every quarter, 2023 included, is b0 + b1 I_t with (b0, b1) solving A_y = 4 b0 + b1 sum_y I
+    for y = 2021, 2022 (hand derivation). Held to its own sum, 2023 would enter the regression
+    as a third observation on the index's scale."""
+    folder = tmp_path / "cl"
+    i, bench = index_indicator_folder(folder, '[benchmark]\nitems = ["P51G"]\nmethod = "chow_lin"\nrho = 0.5\n')
+    out = tmp_path / "out"
+    pipeline.rebuild(folder, out, charts=False)
+    x = benchmarked_quarters(out)
+    b0, b1 = np.linalg.solve([[4.0, i[:4].sum()], [4.0, i[4:8].sum()]], bench)
+    np.testing.assert_allclose(x, b0 + b1 * i, rtol=1e-9)
+
+
+def test_reconcile_past_the_last_benchmark_is_bound_by_the_identity_only(tmp_path):
+    """[reconcile] with a benchmarks file for 2021-2022, quarters and GDP to 2023-Q4. Each
+    component's indicator is proportional to its benchmarks (ratio 1.04 for P31_S14, 0.95 for
+    P51G) and GDP is 1.04 P31_S14 + 0.95 P51G every quarter: that point meets every
+    constraint at zero objective (multivariate proportional Denton, IMF QNA 2017 ch. 6
+    6.5.A; Denton 1971), so it is the result, 2023 included (hand derivation). Held to their own
+    2023 sums, the components could not add to GDP's 2023 (the rebuild was refused)."""
+    rng = np.random.default_rng(5)
+    z = {"P31_S14": 4000 * np.exp(np.cumsum(rng.normal(0.01, 0.01, 12))),
+         "P51G": 1500 * np.exp(np.cumsum(rng.normal(0.0, 0.03, 12)))}
+    k = {"P31_S14": 1.04, "P51G": 0.95}
+    periods = [f"{y}-Q{q}" for y in (2021, 2022, 2023) for q in (1, 2, 3, 4)]
+    gdp = sum(k[c] * z[c] for c in z)
+    acc = pd.concat([pd.DataFrame({"item": c, "period": periods, "value": v}) for c, v in [*z.items(), ("B1GQ", gdp)]])
+    acc = acc.assign(economy="XQ", price_basis="current", adjustment="S", unit="tessel million")
+    cols = ["economy", "period", "item", "price_basis", "value", "adjustment", "unit"]
+    years = pd.DataFrame([{"item": c, "period": str(y), "value": k[c] * z[c][4 * (y - 2021): 4 * (y - 2020)].sum()}
+                          for c in z for y in (2021, 2022)])
+    years = years.assign(economy="XQ", price_basis="current", adjustment="S", unit="tessel million")
+    folder = tmp_path / "rc"
+    (folder / "annual").mkdir(parents=True)
+    acc[cols].to_csv(folder / "accounts.csv", index=False)
+    years[cols].to_csv(folder / "annual" / "benchmarks.csv", index=False)
+    (folder / "valvol.toml").write_text('[aggregates]\nB1GQ = ["P31_S14", "P51G"]\n[reconcile]\naggregate = "B1GQ"\n'
+                                        'benchmarks = "annual/benchmarks.csv"\n')
+    out = tmp_path / "out"
+    pipeline.rebuild(folder, out, charts=False)
+    lv = pd.read_parquet(out / "levels.parquet").query("price_basis == 'current' and frequency == 'Q'")
+    wide = lv.pivot(index="period", columns="item", values="value").sort_index()
+    for c in z:
+        np.testing.assert_allclose(wide[c].to_numpy(), k[c] * z[c], rtol=1e-9)
+    report = pd.read_parquet(out / "reconciliation.parquet")
+    r2023 = report[report["period"].str.startswith("2023")]
+    assert len(r2023) == 8 and (r2023["constraint"] == "annual benchmarks (extrapolated)").all()
+
+
+def test_join_year_keeps_its_own_aggregate_of_the_configured_kind(tmp_path):
+    """first_year defaults to the year before the first given year (2021 here, benchmark 2022
+    only, end-of-year stocks: year_from_quarters = "q4"). 2020 does not move; 2021 keeps its
+    own Q4 value (its q4 aggregate, not the sum of its quarters); 2022-Q4 meets the benchmark;
+    past it the BI ratio stays flat (Denton 1971, Cholette 1984; derived from the objective)."""
+    rng = np.random.default_rng(8)
+    i = 100.0 * np.exp(np.cumsum(rng.normal(0.005, 0.01, 16)))
+    periods = [f"{y}-Q{q}" for y in (2020, 2021, 2022, 2023) for q in (1, 2, 3, 4)]
+    row = {"economy": "XQ", "item": "P51G", "price_basis": "current", "adjustment": "S", "unit": "tessel million"}
+    folder = tmp_path / "stock"
+    (folder / "annual").mkdir(parents=True)
+    pd.DataFrame({**row, "period": periods, "value": i}).to_csv(folder / "accounts.csv", index=False)
+    pd.DataFrame([{**row, "period": "2022", "value": 5000.0}]).to_csv(folder / "annual" / "b.csv", index=False)
+    (folder / "valvol.toml").write_text('[benchmark]\nitems = ["P51G"]\nyear_from_quarters = "q4"\n'
+                                        'benchmarks = "annual/b.csv"\n')
+    out = tmp_path / "out"
+    pipeline.rebuild(folder, out, charts=False)
+    x = benchmarked_quarters(out)
+    np.testing.assert_allclose(x[:4], i[:4], rtol=1e-12)
+    assert x[7] == pytest.approx(i[7], rel=1e-9) and x[11] == pytest.approx(5000.0, rel=1e-9)
+    np.testing.assert_allclose(x[12:], x[11] / i[11] * i[12:], rtol=1e-9)
+    report = pd.read_parquet(out / "reconciliation.parquet").sort_values("period")
+    assert list(report["period"].iloc[[0, -1]]) == ["2021-Q1", "2023-Q4"]

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import logging
+
 import pandas as pd
 import pytest
 
@@ -50,7 +52,7 @@ def test_every_row_problem_is_reported_with_file_row_series_period(accounts, tmp
         (5, "economy code must be 2-16 characters of A-Z, 0-9, _"),
         (6, "period must be YYYY-Qn, YYYYQn or YYYY"),
         (7, "item is not a known SNA code nor a breakdown of one"),
-        (8, "price_basis must be one of current, previous_year, chain_linked, index"),
+        (8, "price_basis must be one of current, previous_year, chain_linked, volume_index, price_index, index"),
         (9, "duplicate of accounts.csv:2"),
         (11, "value must be a finite number"),
     }
@@ -107,12 +109,20 @@ def test_quarters_average_to_year_at_annual_rate(accounts, tmp_path):
     assert pipeline.check(folder, tmp_path / "work_check") == 5
 
 
-def test_missing_and_unknown_columns(accounts, tmp_path):
+def test_missing_and_unknown_columns(accounts, tmp_path, caplog):
+    # a missing column is a problem; an unknown one is dropped with a warning naming file and column
     folder = accounts("economy,period,item,value\nXQ,2020,P6,1\n", name="a.csv")
     (folder / "b.csv").write_text("economy,period,item,price_basis,value,colour\nXQ,2020,P6,current,1,red\n")
-    got = {(p.file, p.reason) for p in problems_of(folder, tmp_path)}
-    assert ("a.csv", "missing column(s) price_basis") in got
-    assert any(f == "b.csv" and r.startswith("unknown column(s) colour") for f, r in got)
+    log = logging.getLogger("valvol")
+    log.addHandler(caplog.handler)  # the CLI may have stopped valvol's records reaching the root logger
+    try:
+        with caplog.at_level("WARNING", logger="valvol"):
+            got = {(p.file, p.reason) for p in problems_of(folder, tmp_path)}
+    finally:
+        log.removeHandler(caplog.handler)
+    assert got == {("a.csv", "missing column(s) price_basis")}
+    assert any(r.levelname == "WARNING" and "b.csv: unknown column(s) colour dropped" in r.getMessage()
+               for r in caplog.records)
 
 
 def test_parquet_input_is_read_like_csv(accounts, tmp_path):

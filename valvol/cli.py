@@ -40,8 +40,11 @@ def _parser() -> argparse.ArgumentParser:
     r.add_argument("--no-flow", action="store_true",
                    help="run the same stages without Prefect (no orchestration records; faster start)")
     r.add_argument("--dask", nargs="?", const="local", metavar="ADDRESS",
-                   help="run the per-economy tasks on a Dask cluster: a scheduler ADDRESS, or a local "
-                        "cluster when no address is given")
+                   help="run the derive tasks (one per chunk of economies) on a Dask cluster: a scheduler "
+                        "ADDRESS, or a local cluster when no address is given")
+    r.add_argument("--chunk-size", type=_positive_int, default=0, metavar="N",
+                   help="economies per derive chunk (default: one chunk per core, at most "
+                        "400,000 input rows each); results are identical whatever the size")
 
     c = sub.add_parser("check", help="apply every rule a rebuild applies to an accounts folder; publish nothing")
     c.add_argument("accounts_dir", type=Path)
@@ -76,6 +79,16 @@ def _parser() -> argparse.ArgumentParser:
     return p
 
 
+def _positive_int(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        value = 0
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"expected a whole number of at least 1, got {text!r}")
+    return value
+
+
 def _setup_logging(quiet: bool) -> None:
     handler = logging.StreamHandler(sys.stderr)
     handler.setFormatter(logging.Formatter("valvol: %(message)s"))
@@ -102,6 +115,7 @@ def _rebuild(args: argparse.Namespace) -> int:
     options = {
         "force": args.force, "label": args.label, "charts": not args.no_charts,
         "chart_economies": [e.strip() for e in args.charts.split(",") if e.strip()] if args.charts else None,
+        "chunk_size": args.chunk_size,
     }
     if args.no_flow:
         res = pipeline.rebuild(accounts, out, **options)
@@ -123,18 +137,19 @@ def _run_flow(accounts: Path, out: Path, dask: str | None, options: dict):
     from valvol.io.publish import check_output_folder, output_lock
 
     check_output_folder(accounts, out)  # a misplaced output folder, a bad config or label, or a busy
-    load_config(accounts)  # output folder stops before Prefect starts
+    config = load_config(accounts)  # output folder stops before Prefect starts
     pipeline.rebuild_options(options["label"], options["charts"], options["chart_economies"])
     with output_lock(out):
         pass
-    prefect_env.configure(out)
+    prefect_env.configure()
     from valvol.flows.rebuild import dask_runner, rebuild_flow
 
     flow = rebuild_flow
     if dask:
         flow = rebuild_flow.with_options(task_runner=dask_runner(None if dask == "local" else dask))
+        options = options | {"workers": 1}  # the cluster's workers run the chunks
     with Console(stderr=True).status("rebuilding (Prefect flow valvol-rebuild)...", spinner="line"):
-        state = flow(str(accounts), str(out), return_state=True, **options)
+        state = flow(str(accounts), str(out), return_state=True, config=config, **options)
     if state.is_failed():
         data = state.result(raise_on_failure=False)
         if isinstance(data, list):

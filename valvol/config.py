@@ -9,6 +9,7 @@ Example ``valvol.toml``::
     reference_year = 2020          # volumes re-referenced so that C_2020 = CLV_2020
     levels_at_annual_rate = false  # false: year = sum of quarters; true: mean
     price_indexes = ["CPI"]        # items given as price indexes (price_basis "index")
+    carry_columns = ["obs_status"] # extra input columns kept as text (others are dropped, with a warning)
 
     [aggregates]                   # aggregate = signed components
     B1GQ = ["P3", "P5", "P6", "-P7", "YA1"]
@@ -18,6 +19,7 @@ Example ``valvol.toml``::
     tolerance_abs = 0.5            # identity tolerance: max(abs, rel * sum |components|)
     tolerance_rel = 1e-4
     deflator_jump_pct = 5.0        # warn when a quarterly deflator moves more than this
+    index_tolerance = 0.05         # rounding of given volume and price indexes (half a unit of the last decimal)
 
     [volumes]
     method = "annual_overlap"      # or "one_quarter_overlap", "over_the_year"
@@ -34,6 +36,7 @@ Example ``valvol.toml``::
 from __future__ import annotations
 
 import math
+import re
 import tomllib
 from dataclasses import dataclass, field, fields
 from pathlib import Path
@@ -44,6 +47,13 @@ from valvol.hierarchy import DEFAULT_AGGREGATES, ITEM_CODE, Hierarchy
 from valvol.io.text import NotUTF8, decode_utf8
 
 CONFIG_FILE = "valvol.toml"
+#: Form of a carried column name (headers are read in lower case).
+CARRY_COLUMN = re.compile(r"^[a-z][a-z0-9_]*$")
+#: Column names the reader and the parsed rows use themselves: never carried.
+RESERVED_COLUMNS = frozenset({
+    "economy", "period", "item", "price_basis", "value", "adjustment", "unit", "source_file", "source_row",
+    "period_text", "value_text", "frequency", "year", "quarter", "month", "derived_from", "origin",
+})
 
 
 @dataclass(frozen=True)
@@ -53,6 +63,8 @@ class ChecksConfig:
     tolerance_abs: float = 0.5
     tolerance_rel: float = 1e-4
     deflator_jump_pct: float = 5.0
+    #: Half a unit of the last decimal of given volume and price indexes (0.05: one decimal).
+    index_tolerance: float = 0.05
 
 
 @dataclass(frozen=True)
@@ -133,6 +145,7 @@ class Config:
     benchmark: BenchmarkConfig = field(default_factory=BenchmarkConfig)
     reconcile: ReconcileConfig = field(default_factory=ReconcileConfig)
     price_indexes: tuple[str, ...] = ("CPI",)
+    carry_columns: tuple[str, ...] = ()
     source: str = ""
 
     def as_dict(self) -> dict[str, Any]:
@@ -146,6 +159,7 @@ class Config:
             },
             "sign_changing": sorted(self.hierarchy.sign_changing),
             "price_indexes": list(self.price_indexes),
+            "carry_columns": list(self.carry_columns),
             "checks": _section_dict(self.checks),
             "volumes": _section_dict(self.volumes),
             "contributions": _section_dict(self.contributions),
@@ -164,7 +178,8 @@ _SECTIONS = {
     "benchmark": BenchmarkConfig,
     "reconcile": ReconcileConfig,
 }
-_TOP_KEYS = {"reference_year", "levels_at_annual_rate", "aggregates", "sign_changing", "price_indexes", *_SECTIONS}
+_TOP_KEYS = {"reference_year", "levels_at_annual_rate", "aggregates", "sign_changing", "price_indexes",
+             "carry_columns", *_SECTIONS}
 
 
 def _section_dict(obj: object) -> dict[str, Any]:
@@ -215,6 +230,7 @@ def config_from_mapping(raw: dict[str, Any], *, source: str = "") -> Config:
     indexes = raw.get("price_indexes", ["CPI"])
     if not isinstance(indexes, list) or not all(isinstance(s, str) and ITEM_CODE.fullmatch(s) for s in indexes):
         raise ConfigError("price_indexes must be a list of item codes", file=source)
+    carry = _carry_columns(raw.get("carry_columns", []), source)
     try:
         hierarchy = Hierarchy.from_mapping(aggregates, sign_changing)
     except ConfigError as exc:
@@ -226,9 +242,24 @@ def config_from_mapping(raw: dict[str, Any], *, source: str = "") -> Config:
         levels_at_annual_rate=annual_rate,
         hierarchy=hierarchy,
         price_indexes=tuple(indexes),
+        carry_columns=carry,
         source=source,
         **sections,
     )
+
+
+def _carry_columns(value: Any, source: str) -> tuple[str, ...]:
+    """``carry_columns``: distinct lower-case column names, none of them a column valvol uses itself."""
+    if not isinstance(value, list) or not all(isinstance(c, str) and CARRY_COLUMN.fullmatch(c) for c in value):
+        raise ConfigError(f"carry_columns must be a list of lower-case column names (e.g. [\"obs_status\"]), "
+                          f"got {value!r}", file=source)
+    reserved = sorted(set(value) & RESERVED_COLUMNS)
+    if reserved:
+        raise ConfigError(f"carry_columns: {', '.join(reserved)} is a column valvol reads or adds itself",
+                          file=source)
+    if len(set(value)) != len(value):
+        raise ConfigError(f"carry_columns lists a column twice: {value!r}", file=source)
+    return tuple(value)
 
 
 def _check_adjustments(b: BenchmarkConfig, r: ReconcileConfig, hierarchy: Hierarchy,

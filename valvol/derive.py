@@ -1,9 +1,9 @@
-"""The derive stage: volumes, deflators, growth, contributions, price gaps and checks.
+"""The derive stage of one chunk of economies: volumes, deflators, growth, contributions, price gaps, checks.
 
 Plain relational arithmetic runs in DuckDB (``sql/int_*.sql``); the methods
 that need more than that (chain-linking, contributions, deflator
-decompositions, price gaps) are pure functions of `valvol.methods` applied to
-the whole levels panel at once. Order of the steps:
+decompositions, price gaps) are pure functions of `valvol.methods`, each called
+once on the chunk's whole levels panel. Order of the steps:
 
 1. volumes: given chain-linked volumes are kept as published (re-referenced
    only when another ``reference_year`` is asked for); where an economy gives
@@ -21,15 +21,31 @@ import logging
 
 import duckdb
 import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
 
 from valvol import db
 from valvol.config import Config
-from valvol.frames import CHECK_COLUMNS, LEVEL_COLUMNS, empty_levels
+from valvol.errors import InputError, Problem
+from valvol.frames import CHECK_COLUMNS, KEY, LEVEL_COLUMNS, empty_levels
 
 log = logging.getLogger("valvol")
 
 #: Relative difference (percent) beyond which computed and given volumes earn a warning.
 CHAIN_DIFF_WARN_PCT = 0.1
+
+
+#: Tables derived per chunk of economies, in the order they are written.
+TABLES = (
+    "levels",
+    "deflators",
+    "growth",
+    "checks",
+    "volume_contributions",
+    "deflator_contributions",
+    "income_contributions",
+    "price_gaps",
+)
 
 
 def _levels(con: duckdb.DuckDBPyConnection) -> pd.DataFrame:
@@ -44,75 +60,117 @@ def _insert_levels(con: duckdb.DuckDBPyConnection, rows: pd.DataFrame, origin: s
     con.unregister("method_rows")
 
 
-def _insert_checks(con: duckdb.DuckDBPyConnection, rows: pd.DataFrame) -> None:
-    if rows.empty:
+def _insert_checks(con: duckdb.DuckDBPyConnection, rows: pd.DataFrame | None) -> None:
+    if rows is None or rows.empty:
         return
     db.register(con, "check_rows", rows[CHECK_COLUMNS])
     db.run_sql(con, "int_checks_insert")
     con.unregister("check_rows")
 
 
-def derive_all(
-    con: duckdb.DuckDBPyConnection,
+def derive_chunk(
+    rows: pd.DataFrame,
     config: Config,
+    *,
+    staged: dict[str, pa.Table] | None = None,
     indexes: pd.DataFrame | None = None,
     extra_checks: pd.DataFrame | None = None,
-) -> None:
-    """Run every derive step on the staged database (see the module docstring).
+) -> dict[str, pa.Table]:
+    """Every derived table of a chunk of economies (see the module docstring), as Arrow tables.
 
-    ``indexes`` holds the economy's validated price-index rows (a consumer price index),
-    compared with the household consumption deflator in the price gaps; ``extra_checks``
-    are checks of earlier stages (reconciliation before/after residuals).
+    ``rows`` are the validated accounts rows of the chunk's economies, ``indexes`` their
+    price-index rows (a consumer price index), compared with the household consumption
+    deflator in the price gaps; ``extra_checks`` are checks of earlier stages
+    (reconciliation before/after residuals). ``staged``: the chunk's rows of the tables the
+    validate stage staged (`valvol.staging.STAGED_TABLES`), used instead of staging ``rows``
+    again when the rows have not changed since. The chunk works in its own in-memory database;
+    each table is ordered by its full key and checked against its pandera model.
     """
-    db.run_sql(con, "int_checks_init")
-    if extra_checks is not None:
+    from valvol.staging import load_staged, stage_accounts
+    from valvol.validate import check_table
+
+    con = db.connect(threads=1)
+    try:
+        if staged is None:
+            stage_accounts(con, rows, config)
+        else:
+            load_staged(con, staged, config)
+        db.run_sql(con, "int_checks_init")
         _insert_checks(con, extra_checks)
-    derive_volumes(con, config)
-    check_levels(con)
-    sign_changing = config.hierarchy.sign_changing_among(db.query_df(con, "int_levels_items")["item"])
-    db.run_sql(con, "int_deflators", sign_changing=sign_changing)
-    db.run_sql(con, "int_growth", sign_changing=sign_changing)
-    db.run_sql(con, "int_checks_identity")
-    db.run_sql(con, "int_checks_annual")
-    db.run_sql(con, "int_checks_deflator_jump", jump_pct=config.checks.deflator_jump_pct)
-    derive_contributions(con, config)
-    derive_price_gaps(con, config, indexes)
-    reject_failed_checks(con)
+        panel = derive_volumes(con, config)
+        check_levels(panel)
+        sign_changing = config.hierarchy.sign_changing_among(pd.unique(panel["item"]))
+        db.run_sql(con, "int_deflators", sign_changing=sign_changing)
+        db.run_sql(con, "int_growth", sign_changing=sign_changing)
+        db.run_sql(con, "int_checks_identity")
+        db.run_sql(con, "int_checks_annual")
+        db.run_sql(con, "int_checks_deflator_jump", jump_pct=config.checks.deflator_jump_pct)
+        panel = panel[~panel["item"].str.endswith("_RESIDUAL")]
+        derive_contributions(con, config, panel)
+        derive_price_gaps(con, config, panel, indexes)
+        tables = {name: db.query_arrow(con, f"out_{name}") for name in TABLES}
+    finally:
+        con.close()
+    carried = tuple(config.carry_columns)
+    if carried:
+        tables["levels"] = with_carried_columns(tables["levels"], rows, carried)
+    for name, table in tables.items():
+        check_table(name, table, carried if name == "levels" else ())
+    return tables
 
 
-def reject_failed_checks(con: duckdb.DuckDBPyConnection) -> None:
-    """A check that fails (e.g. an identity broken by benchmarking one component of a given
-    aggregate) stops the rebuild with located problems: nothing inconsistent is published."""
-    from valvol.errors import InputError, Problem
+def with_carried_columns(levels: pa.Table, rows: pd.DataFrame, carried: tuple[str, ...]) -> pa.Table:
+    """The published levels with the input's carried columns (``carry_columns``), by key.
 
-    failed = db.query_df(con, "int_checks_failed").itertuples(index=False, name=None)
-    failed = list(failed)
-    if failed:
-        raise InputError([
-            Problem(economy=e, item=i, period=p,
-                    reason=f"check {c} fails: value {v:.6g} beyond tolerance {t:.6g}"
-                    + (" (after benchmarking or reconciliation: adjust the aggregate's other components "
-                       "too, or let valvol derive the aggregate)" if c.startswith("identity_") else ""))
-            for e, p, c, i, v, t in failed
-        ])
+    A value as given (or converted from an index) keeps its row's flags; a derived value
+    (annual sums, aggregates, volumes) gets empty text.
+    """
+    key = ["economy", "period", "item", "price_basis"]
+    lv = levels.to_pandas()
+    flags = rows[key + list(carried)].astype({c: "str" for c in carried})
+    out = lv.merge(flags, on=key, how="left", validate="one_to_one")
+    out[list(carried)] = out[list(carried)].fillna("")
+    return pa.Table.from_pandas(out, preserve_index=False)
 
 
-def check_levels(con: duckdb.DuckDBPyConnection) -> None:
+def failed_check_problems(checks: pa.Table) -> list[Problem]:
+    """Checks that fail, as located problems (an identity broken by an adjustment gets a hint)."""
+    df = checks.filter(pc.equal(checks["status"], "fail")).to_pandas()
+    return [
+        Problem(economy=r.economy, item=r.item, period=r.period,
+                reason=f"check {r.rule} fails: value {r.value:.6g} beyond tolerance {r.tolerance:.6g}"
+                + (" (after benchmarking or reconciliation: adjust the aggregate's other components "
+                   "too, or let valvol derive the aggregate)" if r.rule.startswith("identity_") else ""))
+        for r in df.itertuples(index=False)
+    ]
+
+
+def check_levels(panel: pd.DataFrame) -> None:
     """Stage boundary: the complete levels panel against its pandera model."""
     from valvol.schemas.levels import levels as levels_model
     from valvol.validate import StageError, run_schema
 
-    problems = run_schema(levels_model, _levels(con))
+    problems = run_schema(levels_model, panel)
     if problems:
         shown = "\n".join(p.render() for p in problems[:20])
         raise StageError(f"the levels panel breaks its schema ({len(problems)} problem(s)):\n{shown}")
 
 
-def derive_volumes(con: duckdb.DuckDBPyConnection, config: Config) -> None:
-    """Chain-link, re-reference and compare volumes; add non-additivity residuals."""
+def derive_volumes(con: duckdb.DuckDBPyConnection, config: Config) -> pd.DataFrame:
+    """Chain-link, re-reference and compare volumes; add non-additivity residuals.
+
+    Writes the new rows into the database's levels table and returns the complete levels
+    panel (the staged levels with them), read from the database once.
+    """
     from valvol.methods import chainlink
+    from valvol.methods.panel import levels_wide, raise_nonpositive
+    from valvol.methods.reference_year import reference_year_of
 
     levels = _levels(con)
+    # deflators and growth rates are ratios: a positive series must be positive at every basis
+    bases = {"current": "current", "previous_year": "previous_year", "chain_linked": "chain_linked"}
+    raise_nonpositive(levels_wide(levels, bases), bases, config.hierarchy)
+    added = []
     h = config.hierarchy
     given = levels[levels["price_basis"] == "chain_linked"]
     current = levels[levels["price_basis"] == "current"]
@@ -124,6 +182,9 @@ def derive_volumes(con: duckdb.DuckDBPyConnection, config: Config) -> None:
             con.unregister("method_rows")
             _insert_levels(con, moved, "rereferenced")
             given = pd.concat([given[~given["economy"].isin(moved["economy"].unique())], moved])
+            replaced = levels.merge(moved[KEY], on=KEY, how="left", indicator=True)["_merge"].eq("both")
+            levels = levels[~replaced.to_numpy()]
+            added.append(moved[LEVEL_COLUMNS])
     pyp_economies = levels.loc[levels["price_basis"] == "previous_year", "economy"].unique()
     computed = empty_levels()
     if config.volumes.index == "fisher":
@@ -136,7 +197,7 @@ def derive_volumes(con: duckdb.DuckDBPyConnection, config: Config) -> None:
             hierarchy=h,
             method=config.volumes.method,
             reference_year=config.reference_year if config.reference_year is not None
-            else _given_reference_year(given, current),
+            else reference_year_of(pd.concat([given, current], ignore_index=True)),
             annual_rate=config.levels_at_annual_rate,
         )
         if config.volumes.method != "annual_overlap" and config.volumes.benchmark_to_years:
@@ -144,7 +205,9 @@ def derive_volumes(con: duckdb.DuckDBPyConnection, config: Config) -> None:
         key = ["economy", "item", "frequency", "year", "quarter"]
         have = given[key].drop_duplicates()
         fresh = computed.merge(have, on=key, how="left", indicator=True)
-        _insert_levels(con, fresh[fresh["_merge"] == "left_only"].drop(columns="_merge"), "chain_linked")
+        fresh = fresh[fresh["_merge"] == "left_only"].drop(columns="_merge")
+        _insert_levels(con, fresh, "chain_linked")
+        added.append(fresh[LEVEL_COLUMNS])
         both = computed.merge(have, on=key, how="inner")
         if not both.empty:
             cmp = chainlink.compare_chain_linked(given, both)
@@ -158,16 +221,19 @@ def derive_volumes(con: duckdb.DuckDBPyConnection, config: Config) -> None:
             CHECK_COLUMNS
         ],
     )
-    log.info("volumes: %d given, %d chain-linked here, %d residual rows", len(given), len(computed), len(residual))
+    log.debug("volumes: %d given, %d chain-linked here, %d residual rows", len(given), len(computed), len(residual))
+    return pd.concat([levels, *added, residual[LEVEL_COLUMNS]], ignore_index=True)
 
 
 def _require_given_volumes(current: pd.DataFrame, given: pd.DataFrame, h) -> None:
-    """Under ``[volumes] index = "fisher"`` every positive series needs its given chain-linked volume."""
-    from valvol.errors import InputError, Problem
-
+    """Under ``[volumes] index = "fisher"`` every positive series of the expenditure hierarchy (or
+    a breakdown of one) needs its given chain-linked volume; income items (D1, B2A3G, ...) have
+    none."""
     key = ["economy", "item"]
     have = given[key].drop_duplicates()
-    need = current[~current["item"].map(h.is_sign_changing)][key].drop_duplicates()
+    need = current[key].drop_duplicates()
+    chained = {i for i in pd.unique(need["item"]) if h.anchor(i) is not None and not h.is_sign_changing(i)}
+    need = need[need["item"].isin(chained)]
     missing = need.merge(have, on=key, how="left", indicator=True).query("_merge == 'left_only'")
     if len(missing):
         raise InputError([
@@ -178,38 +244,17 @@ def _require_given_volumes(current: pd.DataFrame, given: pd.DataFrame, h) -> Non
         ])
 
 
-def _given_reference_year(given: pd.DataFrame, current: pd.DataFrame) -> int | None:
-    """The year in which given annual volumes equal current prices (None when none is found)."""
-    if given.empty:
-        return None
-    key = ["economy", "item", "year"]
-    a = given[given["frequency"] == "A"].merge(current[current["frequency"] == "A"], on=key, suffixes=("_v", "_c"))
-    if a.empty:
-        return None
-    a = a[a["value_c"] > 0]
-    close = a[(a["value_v"] - a["value_c"]).abs() <= 1e-4 * a["value_c"].abs() + 0.5]
-    if close.empty:
-        return None
-    return int(close["year"].mode().iloc[0])
-
-
 def _rereference_given(given: pd.DataFrame, current: pd.DataFrame, config: Config) -> pd.DataFrame:
     """Given volumes of economies not already referenced to ``reference_year``, re-referenced."""
-    from valvol.methods import chainlink
+    from valvol.methods.reference_year import reference_year_of, rereference
 
     r = config.reference_year
-    needs = []
-    for economy, vol in given.groupby("economy", sort=True):  # one decision per economy, not per series
-        ref = _given_reference_year(vol, current[current["economy"] == economy])
-        if ref != r:
-            needs.append(economy)
+    found = reference_year_of(pd.concat([given, current], ignore_index=True))
+    needs = [e for e in pd.unique(given["economy"]) if found.get(e) != r]
     if not needs:
         return pd.DataFrame(columns=LEVEL_COLUMNS)
-    moved = chainlink.rereference(
-        given[given["economy"].isin(needs)], current[current["economy"].isin(needs)], r,
-        hierarchy=config.hierarchy,
-    )
-    return moved
+    return rereference(given[given["economy"].isin(needs)], current[current["economy"].isin(needs)], r,
+                       hierarchy=config.hierarchy)
 
 
 def _chain_comparison_checks(cmp: pd.DataFrame) -> pd.DataFrame:
@@ -227,7 +272,7 @@ def _chain_comparison_checks(cmp: pd.DataFrame) -> pd.DataFrame:
     )
 
 
-def derive_contributions(con: duckdb.DuckDBPyConnection, config: Config) -> None:
+def derive_contributions(con: duckdb.DuckDBPyConnection, config: Config, levels: pd.DataFrame) -> None:
     """Contributions to volume growth and to deflator growth of every declared aggregate.
 
     ``annual_overlap_exact`` needs previous-year prices and ``prior_year_weights`` and ``fisher`` need
@@ -235,9 +280,9 @@ def derive_contributions(con: duckdb.DuckDBPyConnection, config: Config) -> None
     never figures built from current prices alone.
     """
     from valvol.methods import contributions, deflator_contributions
+    from valvol.methods.panel import zero_fill_components
 
-    levels = _levels(con)
-    levels = zero_fill_components(levels[~levels["item"].str.endswith("_RESIDUAL")], config.hierarchy)
+    levels = zero_fill_components(levels, config.hierarchy)
     convention = config.contributions.convention
     # the UK agency's weighting is a volume convention; prices then follow the exact two-step links
     price_convention = "fisher" if convention == "fisher" else "annual_overlap_exact"
@@ -250,9 +295,9 @@ def derive_contributions(con: duckdb.DuckDBPyConnection, config: Config) -> None
         "int_income_contributions": ("chain_linked", deflator_contributions.income_side_contributions),
     }
     for statement, (basis, method) in tables.items():
-        usable = levels[levels["economy"].isin(levels.loc[levels["price_basis"] == basis, "economy"])]
+        usable = levels[levels["economy"].isin(pd.unique(levels.loc[levels["price_basis"] == basis, "economy"]))]
         if usable.empty:
-            log.info("%s: no %s values, none computed", statement.removeprefix("int_"), basis)
+            log.debug("%s: no %s values, none computed", statement.removeprefix("int_"), basis)
             rows = pd.DataFrame({c: pd.Series(dtype="float64" if c in _FLOAT else "int64" if c in ("year", "quarter")
                                               else "str") for c in CONTRIBUTION_COLUMNS})
         else:
@@ -267,32 +312,11 @@ CONTRIBUTION_COLUMNS = ["economy", "period", "frequency", "year", "quarter", "ag
 _FLOAT = ("contribution_pp", "aggregate_growth_pct", "residual_pp")
 
 
-def zero_fill_components(levels: pd.DataFrame, hierarchy) -> pd.DataFrame:
-    """Zeros for a component's periods before it starts (or after it ends), where its aggregate has values.
-
-    The aggregates are formed with a missing component counting as zero in that period
-    (``sql/int_aggregate.sql``); the decompositions see the same zeros, so that a series
-    starting later than others contributes its level change from zero, and the aggregate's
-    contributions still add up. Only series the economy reports are filled.
-    """
-    edges = pd.DataFrame(hierarchy.edges(), columns=["aggregate", "item", "sign"])[["aggregate", "item"]]
-    series = ["economy", "item", "price_basis", "frequency"]
-    at = ["economy", "price_basis", "frequency", "year", "quarter", "period"]
-    aggregate_rows = levels.rename(columns={"item": "aggregate"}).merge(edges, on="aggregate")[at + ["item"]]
-    reported = levels[series].drop_duplicates()
-    wanted = aggregate_rows.merge(reported, on=series).drop_duplicates()
-    have = levels[series + ["year", "quarter"]]
-    missing = wanted.merge(have, on=series + ["year", "quarter"], how="left", indicator=True)
-    missing = missing[missing["_merge"] == "left_only"].drop(columns="_merge").assign(value=0.0)
-    return pd.concat([levels, missing[levels.columns]], ignore_index=True) if len(missing) else levels
-
-
-def derive_price_gaps(con: duckdb.DuckDBPyConnection, config: Config, indexes: pd.DataFrame | None = None) -> None:
+def derive_price_gaps(con: duckdb.DuckDBPyConnection, config: Config, levels: pd.DataFrame,
+                      indexes: pd.DataFrame | None = None) -> None:
     """Terms of trade, trading gain, real GDI, deflator gaps and the CPI against household prices."""
     from valvol.methods import price_gaps
 
-    levels = _levels(con)
-    levels = levels[~levels["item"].str.endswith("_RESIDUAL")]
     cpi = None
     if indexes is not None and indexes["item"].eq("CPI").any():
         cpi = indexes[indexes["item"] == "CPI"][["economy", "item", "price_basis", "frequency", "year", "quarter",

@@ -31,6 +31,11 @@ import pandas as pd
 KEY = ["economy", "item", "price_basis", "frequency", "year", "quarter"]
 LEVEL_COLUMNS = ["economy", "item", "price_basis", "frequency", "year", "quarter", "period", "value"]
 PRICE_BASES = ("current", "previous_year", "chain_linked")
+#: Index bases accepted in input and turned into ``chain_linked`` (and ``current``) rows by
+#: `valvol.methods.index_bases` before staging: they never reach the levels panel.
+INDEX_BASES = ("volume_index", "price_index")
+#: Price bases of accounts items in the input contract.
+INPUT_PRICE_BASES = (*PRICE_BASES, *INDEX_BASES)
 #: Columns of the ``checks`` table, wherever checks are made.
 CHECK_COLUMNS = ["economy", "period", "rule", "item", "value", "tolerance", "status"]
 
@@ -38,12 +43,18 @@ CHECK_COLUMNS = ["economy", "period", "rule", "item", "value", "tolerance", "sta
 def period_label(year: np.ndarray | pd.Series, quarter: np.ndarray | pd.Series) -> pd.Series:
     """Canonical period labels: ``YYYY-Qn`` for quarter > 0, ``YYYY`` for quarter 0.
 
+    Each distinct period is labelled once and the labels spread to the rows, so long panels
+    cost one take. The one place these labels are formed.
+
     >>> list(period_label(pd.Series([2020, 2020]), pd.Series([0, 3])))
     ['2020', '2020-Q3']
     """
-    y = pd.Series(np.asarray(year), dtype="int64").astype(str)
-    q = pd.Series(np.asarray(quarter), dtype="int64")
-    return y.where(q == 0, y + "-Q" + q.astype(str))
+    code = np.asarray(year, dtype="int64") * 5 + np.asarray(quarter, dtype="int64")
+    uniq, inverse = np.unique(code, return_inverse=True)
+    y = pd.Series(uniq // 5).astype(str)
+    q = pd.Series(uniq % 5)
+    labels = y.where(q == 0, y + "-Q" + q.astype(str)).astype("str")
+    return labels.take(inverse.reshape(-1)).reset_index(drop=True)
 
 
 def empty_levels() -> pd.DataFrame:

@@ -36,6 +36,10 @@ def parse_periods(labels: pd.Series) -> pd.DataFrame:
     >>> parse_periods(pd.Series(["2024Q3", "2024", "24-Q1"]))[["valid", "period"]].values.tolist()
     [[True, '2024-Q3'], [True, '2024'], [False, '']]
     """
+    codes, distinct = pd.factorize(labels.astype("str"), use_na_sentinel=False)
+    if len(distinct) < len(labels):  # parse each distinct label once, then spread to the rows
+        once = parse_periods(pd.Series(distinct, dtype="str"))
+        return once.take(codes).set_axis(labels.index)
     text = labels.astype("str").str.strip()
     parts = text.str.extract(_PARSE)
     valid = parts["year"].notna().to_numpy()

@@ -1,30 +1,39 @@
-"""The rebuild as plain functions, one per stage; Prefect tasks wrap them one to one.
+"""The rebuild: one stage order, written once, run by every command and by the Prefect flow.
 
-Stages pass paths, never frames or connections:
+``STAGES`` is the order::
 
-``load``            accounts folder -> ``rows.parquet`` (parsed rows, with file and row) + read problems
-``validate``        rows -> ``validated.parquet`` and the list of economies, or `InputError`
-                    with every problem found (its own DuckDB file, removed afterwards)
-``derive_economy``  one economy -> ``economies/<E>/<table>.parquet``, in its own DuckDB file:
-                    workers never share a database, so economies can run anywhere
-``write``           every economy's tables -> one ordered parquet file per table, charts,
-                    revisions against the latest vintage, the vintage's ``valvol.duckdb``,
-                    ``manifest.json`` (last)
-``publish``         the work folder becomes ``vintages/<vintage>``; ``latest`` switches atomically
+    load -> validate -> reconcile -> derive (one call per chunk of economies) -> check -> write -> publish
 
-`rebuild` runs them in order without Prefect; `valvol.flows.rebuild` runs the same
-functions as tasks, fanning ``derive_economy`` out over economies.
+``load``       every accounts file -> ``rows.parquet`` (parsed rows, with file and row)
+``validate``   row rules, keys, gaps, identities over the whole panel -> ``validated.parquet``
+``reconcile``  ``[benchmark]`` / ``[reconcile]``: adjusted ``validated.parquet`` and its report
+``derive``     one chunk of economies (contiguous in sorted order) -> ``chunks/<n>/<table>.parquet``;
+               chunks are independent, so they run anywhere (threads, a Dask cluster)
+``check``      a check that fails anywhere in the panel stops the rebuild
+``write``      the chunks' tables -> one ordered parquet file per table, revisions against
+               ``latest``, the vintage's ``valvol.duckdb``, charts, ``manifest.json`` (last)
+``publish``    the work folder becomes ``vintages/<vintage>``; ``latest`` switches atomically
+
+Every stage takes the `Run` (paths and the one `Config`, read once) and returns the problems
+it found, as data; `run_stages` calls the stages in order, collects the problems of every
+chunk and stops after the first stage that found any. ``valvol rebuild`` runs all stages,
+``valvol check`` the stages up to ``check`` in a scratch folder, ``valvol reconcile`` those up
+to ``reconcile`` and then writes the reconciled accounts; the flow (`valvol.flows.rebuild`)
+hands `run_stages` a caller that runs each stage as a Prefect task.
 """
 
 from __future__ import annotations
 
 import json
 import logging
+import math
+import multiprocessing
+import os
 import shutil
 import time
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import pandas as pd
@@ -33,48 +42,414 @@ import pyarrow.parquet as pq
 
 from valvol import db, reconciliation
 from valvol.config import Config, load_config
+from valvol.derive import TABLES
 from valvol.errors import InputError, Problem
 from valvol.io import publish as pub
-from valvol.io.readers import read_accounts
-from valvol.validate import (
-    duplicate_keys,
-    identity_problems,
-    locate_problems,
-    parse_rows,
-    period_gaps,
-    row_problems,
-)
+from valvol.io import workfiles
+from valvol.staging import STAGED_TABLES
 
 log = logging.getLogger("valvol")
 
-ROWS_FILE = "rows.parquet"
+ROWS_FILE = "rows.arrow"
 READ_PROBLEMS_FILE = "read_problems.json"
-VALIDATED_FILE = "validated.parquet"
-INDEXES_FILE = "indexes.parquet"
-RECONCILIATION_FILE = "reconciliation.parquet"
-RECONCILE_CHECKS_FILE = "reconcile_checks.parquet"
-ECONOMIES_DIR = "economies"
-DB_FILE = db.DB_FILE
-MANIFEST_FILE = "manifest.json"
+VALIDATED_FILE = "validated.arrow"
+INDEXES_FILE = "indexes.arrow"
+ECONOMIES_FILE = "economies.json"
+RECONCILIATION_FILE = "reconciliation.arrow"
+RECONCILE_CHECKS_FILE = "reconcile_checks.arrow"
+STAGED_FILE = "staged_{}.arrow"
+CHUNKS_DIR = "chunks"
 TIMINGS_FILE = "timings.json"
-SCRATCH = (ROWS_FILE, READ_PROBLEMS_FILE, VALIDATED_FILE, INDEXES_FILE, RECONCILE_CHECKS_FILE, TIMINGS_FILE,
-           "validate.duckdb")
+MANIFEST_FILE = "manifest.json"
+DB_FILE = db.DB_FILE
 
-#: Output tables, in the order they are written.
-TABLES = (
-    "levels",
-    "deflators",
-    "growth",
-    "checks",
-    "volume_contributions",
-    "deflator_contributions",
-    "income_contributions",
-    "price_gaps",
-)
 #: Tables of revisions against the previous vintage (empty for a first vintage).
 REVISION_TABLES = ("revisions", "revision_summary")
+#: Input rows per chunk at most when the chunk size is automatic (bounds a chunk's memory).
+CHUNK_ROWS = 400_000
+#: Input rows per chunk at least, when the chunk size is automatic and the panel is small.
+MIN_CHUNK_ROWS = 100_000
 
 
+# ----------------------------------------------------------------------------- the run
+@dataclass(frozen=True)
+class Run:
+    """Everything a stage needs: where to read and work, and the one configuration.
+
+    ``options`` (label, charts, chart economies) shape the vintage and its fingerprint;
+    ``chunk_size`` (economies per derive chunk, 0 = automatic: one chunk per worker, at most
+    `CHUNK_ROWS` input rows each) and ``workers`` (chunks derived at once on the plain path)
+    never change the outputs.
+    """
+
+    accounts_dir: Path
+    work: Path
+    config: Config
+    out_dir: Path | None = None
+    options: dict = field(default_factory=dict)
+    chunk_size: int = 0
+    workers: int = 0
+
+
+@dataclass(frozen=True)
+class Chunk:
+    """A contiguous run of economies (in sorted order) derived together."""
+
+    index: int
+    economies: tuple[str, ...]
+
+    @property
+    def name(self) -> str:
+        return f"{self.index:05d}"
+
+
+@dataclass(frozen=True)
+class Stage:
+    """One step of the rebuild: ``run(run)`` or, ``per_chunk``, ``run(run, chunk)``; returns problems."""
+
+    name: str
+    run: Callable[..., list[Problem]]
+    per_chunk: bool = False
+    io: bool = False  # reads or writes outside the work folder: worth a retry in the flow
+
+
+def _problems_as_data(fn: Callable[..., None]) -> Callable[..., list[Problem]]:
+    """Run a stage body; the problems of an `InputError` it raises become its return value,
+    located in the input files (`located`)."""
+
+    def stage(run: Run, *args) -> list[Problem]:
+        try:
+            fn(run, *args)
+        except InputError as err:
+            return located(run, list(err.problems))
+        return []
+
+    stage.__name__ = stage.__qualname__ = fn.__name__
+    stage.__doc__ = fn.__doc__
+    return stage
+
+
+def located(run: Run, problems: list[Problem]) -> list[Problem]:
+    """``problems`` found on derived panels (a zero volume, a broken identity, quarters that do
+    not add to the year), which name economy, item, price basis and period, with the file and
+    row of the input row they are about, or the file of their series (`valvol.validate.locate`)."""
+    from valvol.validate import locate
+
+    path = run.work / ROWS_FILE
+    economies = sorted({p.economy for p in problems if not p.file and p.economy and p.item})
+    if not economies or not path.exists():
+        return problems
+    return locate(problems, workfiles.read_frame(path, economies))
+
+
+def default_workers() -> int:
+    """Chunks derived at once on one machine: one per core."""
+    return max(1, os.cpu_count() or 1)
+
+
+# ----------------------------------------------------------------------------- stages
+@_problems_as_data
+def load(run: Run) -> None:
+    """Read every data file of the accounts folder; write the parsed rows and the read problems."""
+    from valvol.io.readers import read_accounts
+    from valvol.validate import parse_rows
+
+    raw, problems = read_accounts(run.accounts_dir, run.config.carry_columns)
+    rows = parse_rows(raw)
+    workfiles.write_frame(run.work / ROWS_FILE, rows)
+    (run.work / READ_PROBLEMS_FILE).write_text(json.dumps([p.as_dict() for p in problems]))
+    log.info("load: %d rows from %d file(s) in %s", len(rows), rows["source_file"].nunique(), run.accounts_dir)
+
+
+@_problems_as_data
+def validate(run: Run) -> None:
+    """Check the parsed rows against the input contract over the whole panel.
+
+    Every problem is collected (read problems, row rules, duplicate keys, gaps, identities,
+    quarters against years) and raised together; valid rows go to ``validated.parquet``
+    (accounts) and ``indexes.parquet`` (price indexes), the economies to ``economies.json``.
+    """
+    from valvol.validate import validate_rows
+
+    problems = [Problem(**p) for p in json.loads((run.work / READ_PROBLEMS_FILE).read_text())]
+    rows = workfiles.read_frame(run.work / ROWS_FILE)
+    accounts, indexes, staged = validate_rows(rows, run.config, run.accounts_dir, problems)
+    workfiles.write_frame(run.work / VALIDATED_FILE, accounts)
+    workfiles.write_frame(run.work / INDEXES_FILE, indexes)
+    if not reconciliation.enabled(run.config):  # else the derive chunks stage the adjusted rows
+        for name, table in staged.items():
+            workfiles.write_frame(run.work / STAGED_FILE.format(name), table)
+    counts = accounts["economy"].value_counts().sort_index()
+    (run.work / ECONOMIES_FILE).write_text(json.dumps({"rows": {str(e): int(n) for e, n in counts.items()}}))
+    log.info("validate: %d rows valid: %d economies, %d accounts rows, %d price-index rows",
+             len(accounts) + len(indexes), len(counts), len(accounts), len(indexes))
+
+
+@_problems_as_data
+def reconcile(run: Run) -> None:
+    """Benchmark and reconcile the validated rows as ``[benchmark]`` and ``[reconcile]`` ask.
+
+    Rewrites ``validated.parquet`` with the adjusted quarters and writes the
+    ``reconciliation`` report and its before/after checks (empty when not asked for).
+    """
+    if reconciliation.enabled(run.config):
+        rows = workfiles.read_frame(run.work / VALIDATED_FILE)
+        rows, report, checks = reconciliation.run(rows, run.config, run.accounts_dir)
+        workfiles.write_frame(run.work / VALIDATED_FILE, rows)
+        log.info("reconcile: %d quarterly values adjusted", int((report["adjustment"].abs() > 0).sum()))
+    else:
+        report = pd.DataFrame(columns=reconciliation.REPORT_COLUMNS)
+        checks = pd.DataFrame(columns=reconciliation.CHECK_COLUMNS)
+    workfiles.write_frame(run.work / RECONCILIATION_FILE, reconciliation.typed_report(report))
+    workfiles.write_frame(run.work / RECONCILE_CHECKS_FILE, checks.astype({"value": "float64", "tolerance": "float64"}))
+
+
+@_problems_as_data
+def derive(run: Run, chunk: Chunk) -> None:
+    """Derive every table of one chunk of economies in its own in-memory database.
+
+    When a method finds problems in some economies, the chunk is derived again without them,
+    so that every economy's problems are those of the first step that fails for it, whatever
+    economies share its chunk; all of them are raised together at the end.
+    """
+    from valvol.derive import derive_chunk
+
+    folder = run.work / CHUNKS_DIR / chunk.name
+    if folder.exists():  # a retried or re-run task starts clean
+        shutil.rmtree(folder)
+    economies, problems = list(chunk.economies), []
+    while economies:
+        rows, indexes, checks = (workfiles.read_frame(run.work / name, economies)
+                                 for name in (VALIDATED_FILE, INDEXES_FILE, RECONCILE_CHECKS_FILE))
+        staged = None
+        if (run.work / STAGED_FILE.format("levels")).exists():
+            staged = {name: workfiles.read_table(run.work / STAGED_FILE.format(name), economies)
+                      for name in STAGED_TABLES}
+        try:
+            tables = derive_chunk(rows, run.config, staged=staged, indexes=indexes, extra_checks=checks)
+            break
+        except InputError as err:
+            problems += err.problems
+            failing = {p.economy for p in err.problems}
+            if "" in failing or not failing & set(economies):  # a problem of the whole chunk
+                raise InputError(problems) from None
+            economies = [e for e in economies if e not in failing]
+    if problems:
+        raise InputError(problems)
+    folder.mkdir(parents=True)
+    for name, table in tables.items():
+        workfiles.write_frame(folder / f"{name}.arrow", table)
+
+
+@_problems_as_data
+def check(run: Run) -> None:
+    """A check that fails in any chunk (e.g. an identity broken by benchmarking one component of
+    a given aggregate) stops the rebuild with located problems: nothing inconsistent is published."""
+    from valvol.derive import failed_check_problems
+
+    problems = [p for c in chunks(run) for p in failed_check_problems(workfiles.read_table(_chunk_file(run, c, "checks")))]
+    if problems:
+        raise InputError(problems)
+
+
+@_problems_as_data
+def write(run: Run) -> None:
+    """Combine the chunks' tables, compare them with ``latest``, write the vintage's files.
+
+    Writes ``<table>.parquet`` (one ordered file per table, combined in parallel), the
+    revisions against the latest vintage of the output folder (when there is one),
+    ``valvol.duckdb`` holding the same tables, ``charts/`` and, last, ``manifest.json``.
+    """
+    from valvol.charts import draw_charts
+    from valvol.io import writers
+    from valvol.manifest import build_manifest
+
+    started = time.perf_counter()
+    work, options = run.work, run.options
+    parts = chunks(run)
+    jobs = [(name, [_chunk_file(run, c, name) for c in parts], work / f"{name}.parquet") for name in TABLES]
+    counts = dict(zip(TABLES, map_chunks(run, writers.combine_table, jobs), strict=True))
+    shutil.rmtree(work / CHUNKS_DIR, ignore_errors=True)
+    small = {"reconciliation": workfiles.read_table(work / RECONCILIATION_FILE)}
+    revised_against, revisions = _revisions_against_latest(run.out_dir, work)
+    counts |= writers.write_tables(work, small | revisions)
+    (work / "charts").mkdir(exist_ok=True)
+    drawn = draw_charts(work, options.get("chart_economies")) if options.get("charts", True) else []
+    writers.store_database(work, list(counts))
+    status = pq.read_table(work / "checks.parquet", columns=["status"]).column("status").to_pandas()
+    timings = _timings(work) | {"write": round(time.perf_counter() - started, 3)}
+    for name in work.iterdir():  # the work files of earlier stages
+        if name.suffix == ".arrow" or name.name in (READ_PROBLEMS_FILE, ECONOMIES_FILE, TIMINGS_FILE):
+            name.unlink()
+    manifest = build_manifest(run.accounts_dir, run.config, counts, status.value_counts().to_dict(), timings,
+                              options=options)
+    manifest["charts"] = sorted(str(p.relative_to(work)) for p in drawn)
+    manifest["revised_against"] = revised_against
+    (work / MANIFEST_FILE).write_text(json.dumps(manifest, indent=2, sort_keys=True) + "\n")
+    log.info("write: %s", ", ".join(f"{t} ({n} rows)" for t, n in counts.items()))
+    if drawn:
+        log.info("write: drew %d chart file(s)", len(drawn))
+
+
+@_problems_as_data
+def publish(run: Run) -> None:
+    """Move the finished work folder into ``vintages/`` and switch ``latest`` to it."""
+    manifest = json.loads((run.work / MANIFEST_FILE).read_text())
+    links = [f"{t}.parquet" for t in (*TABLES, "reconciliation", *REVISION_TABLES)] + [MANIFEST_FILE, DB_FILE,
+                                                                                      "charts"]
+    target = pub.publish(run.work, run.out_dir, manifest["vintage"], [n for n in links if (run.work / n).exists()])
+    log.info("publish: vintage %s in %s", target.name, run.out_dir)
+
+
+#: The stage order, written once.
+STAGES: tuple[Stage, ...] = (
+    Stage("load", load, io=True),
+    Stage("validate", validate),
+    Stage("reconcile", reconcile, io=True),
+    Stage("derive", derive, per_chunk=True),
+    Stage("check", check),
+    Stage("write", write, io=True),
+    Stage("publish", publish, io=True),
+)
+
+
+def stages_until(last: str) -> tuple[Stage, ...]:
+    """The stages from ``load`` up to and including ``last``."""
+    names = [s.name for s in STAGES]
+    return STAGES[: names.index(last) + 1]
+
+
+# ----------------------------------------------------------------------------- running them
+def chunks(run: Run) -> list[Chunk]:
+    """The derive chunks of a validated run: contiguous runs of economies in sorted order."""
+    rows = json.loads((run.work / ECONOMIES_FILE).read_text())["rows"]
+    return plan_chunks(rows, run.chunk_size, run.workers or default_workers())
+
+
+def plan_chunks(rows: dict[str, int], chunk_size: int = 0, workers: int = 1) -> list[Chunk]:
+    """Split economies (with their input row counts) into chunks.
+
+    ``chunk_size`` > 0: that many economies per chunk. Automatic (0): one chunk per
+    `MIN_CHUNK_ROWS` input rows, up to ``workers`` chunks (a small panel is one chunk: a
+    worker process costs more than it saves there), and more whenever chunks would hold more
+    than `CHUNK_ROWS` input rows on average.
+
+    >>> [c.economies for c in plan_chunks({"A": 10**5, "B": 10**5, "C": 10**5}, workers=2)]
+    [('A', 'B'), ('C',)]
+    >>> [c.economies for c in plan_chunks({"A": 10, "B": 10, "C": 10}, workers=2)]
+    [('A', 'B', 'C')]
+    """
+    economies = sorted(rows)
+    if not economies:
+        return []
+    if chunk_size <= 0:
+        total = sum(rows.values())
+        n = max(min(workers, math.ceil(total / MIN_CHUNK_ROWS)), math.ceil(total / CHUNK_ROWS))
+        chunk_size = math.ceil(len(economies) / min(n, len(economies)))
+    return [Chunk(i, tuple(economies[start:start + chunk_size]))
+            for i, start in enumerate(range(0, len(economies), chunk_size))]
+
+
+def _chunk_file(run: Run, chunk: Chunk, table: str) -> Path:
+    return run.work / CHUNKS_DIR / chunk.name / f"{table}.arrow"
+
+
+#: How a stage is invoked: ``call(stage, run, chunks)`` -> problems (chunks: None unless per chunk).
+StageCaller = Callable[[Stage, Run, Sequence[Chunk] | None], list[Problem]]
+
+
+def _executor(run: Run):
+    """joblib's reusable process pool (loky) of ``run.workers`` processes, or None for one worker.
+
+    Chunk work is mostly pandas and numpy, which hold the interpreter lock: processes, not
+    threads, use the cores. The workers stay alive for the next call and need no
+    ``__main__`` guard on POSIX systems.
+    """
+    workers = run.workers or default_workers()
+    if workers <= 1 or multiprocessing.current_process().daemon:  # a daemon (a Dask worker) has no children
+        return None
+    if not (run.work / ECONOMIES_FILE).exists() or len(chunks(run)) < 2:  # one chunk: no pool worth starting
+        return None
+    from joblib.externals.loky import get_reusable_executor
+
+    _POOLS.append(get_reusable_executor(max_workers=workers, timeout=300))
+    return _POOLS[-1]
+
+
+#: Pools started during the current run (shut down when it ends).
+_POOLS: list = []
+
+
+def _shutdown_pool() -> None:
+    """Stop the pool's workers (if any were started), so that no process outlives the run."""
+    while _POOLS:
+        _POOLS.pop().shutdown(wait=True)
+
+
+def map_chunks(run: Run, fn: Callable, jobs: Sequence[tuple]) -> list:
+    """``fn(*job)`` for every job, in order; in the process pool when there is one."""
+    pool = _executor(run) if len(jobs) > 1 else None
+    if pool is None:
+        return [fn(*job) for job in jobs]
+    return list(pool.map(fn, *zip(*jobs, strict=True)))
+
+
+class _Done:
+    def __init__(self, value) -> None:
+        self.value = value
+
+    def result(self):
+        return self.value
+
+
+def submit(run: Run, fn: Callable, *args):
+    """``fn(*args)`` started in the process pool (a future), or run here when there is none."""
+    pool = _executor(run)
+    return pool.submit(fn, *args) if pool is not None else _Done(fn(*args))
+
+
+def run_chunk(stage: Stage, run: Run, chunk: Chunk) -> list[Problem]:
+    """One chunk of a per-chunk stage, in a worker process when the run has a pool."""
+    return submit(run, stage.run, run, chunk).result()
+
+
+def call_plainly(stage: Stage, run: Run, parts: Sequence[Chunk] | None) -> list[Problem]:
+    """Call a stage as a plain function; a per-chunk stage over its chunks in the process pool."""
+    if parts is None:
+        return stage.run(run)
+    return [p for found in map_chunks(run, stage.run, [(run, c) for c in parts]) for p in found]
+
+
+def run_stages(run: Run, stages: Sequence[Stage] = STAGES, call: StageCaller = call_plainly) -> list[Problem]:
+    """Run ``stages`` in order; return the problems of the first stage that finds any (else [])."""
+    try:
+        for stage in stages:
+            started = time.perf_counter()
+            problems = call(stage, run, chunks(run) if stage.per_chunk else None)
+            _timed(run.work, stage.name, started)
+            if problems:
+                log.info("%s: %d problem(s); stopping", stage.name, len(problems))
+                return problems
+        return []
+    finally:
+        _shutdown_pool()
+
+
+def _timed(work: Path, stage: str, started: float) -> None:
+    path = work / TIMINGS_FILE
+    if not work.is_dir() or (work / MANIFEST_FILE).exists():  # written (or published): timings are final
+        return
+    timings = _timings(work)
+    timings[stage] = round(timings.get(stage, 0.0) + time.perf_counter() - started, 3)
+    path.write_text(json.dumps(timings, indent=1, sort_keys=True))
+
+
+def _timings(work: Path) -> dict[str, float]:
+    path = work / TIMINGS_FILE
+    return json.loads(path.read_text()) if path.exists() else {}
+
+
+# ----------------------------------------------------------------------------- commands
 @dataclass(frozen=True)
 class RebuildResult:
     """What a rebuild produced (``unchanged``: inputs, code and config as in ``latest``)."""
@@ -84,241 +459,6 @@ class RebuildResult:
     row_counts: dict[str, int]
     warnings: int
     unchanged: bool = False
-
-
-def _timed(work: Path, stage: str, started: float) -> None:
-    path = work / TIMINGS_FILE
-    timings = json.loads(path.read_text()) if path.exists() else {}
-    timings[stage] = round(timings.get(stage, 0.0) + time.perf_counter() - started, 3)
-    path.write_text(json.dumps(timings, indent=1, sort_keys=True))
-
-
-def load(accounts_dir: str | Path, work: str | Path) -> Path:
-    """Read every data file of the folder; write parsed rows and read problems into ``work``."""
-    started = time.perf_counter()
-    work = Path(work)
-    raw, problems = read_accounts(accounts_dir)
-    rows = parse_rows(raw)
-    rows.to_parquet(work / ROWS_FILE, index=False)
-    (work / READ_PROBLEMS_FILE).write_text(json.dumps([p.as_dict() for p in problems]))
-    log.info("read %d rows from %d file(s) in %s", len(rows), rows["source_file"].nunique(), accounts_dir)
-    _timed(work, "load", started)
-    return work / ROWS_FILE
-
-
-def stage_accounts(con, rows: pd.DataFrame, config: Config) -> None:
-    """Stage rows in DuckDB and derive annual values and aggregates (shared by validate and derive)."""
-    db.register(con, "input_rows", rows)
-    db.run_sql(con, "stg_input")
-    con.unregister("input_rows")
-    edges = pd.DataFrame(config.hierarchy.edges(), columns=["aggregate", "component", "sign"])
-    db.register(con, "hierarchy_edges", edges)
-    db.run_sql(con, "stg_hierarchy")
-    con.unregister("hierarchy_edges")
-    db.run_sql(con, "int_levels_init")
-    db.run_sql(con, "int_annual_from_quarters", annual_rate=config.levels_at_annual_rate)
-    for aggregate in config.hierarchy.order():  # bottom-up, one statement per aggregate
-        db.run_sql(con, "int_aggregate", aggregate=aggregate)
-    tol = {"tol_abs": config.checks.tolerance_abs, "tol_rel": config.checks.tolerance_rel}
-    db.run_sql(con, "int_identity_residuals", **tol)
-    db.run_sql(con, "int_annual_vs_quarters", annual_rate=config.levels_at_annual_rate, **tol)
-
-
-@locate_problems(ROWS_FILE)
-def validate(accounts_dir: str | Path, work: str | Path, config: Config | None = None) -> list[str]:
-    """Check the parsed rows against the input contract; return the economies found.
-
-    Every problem is collected (row rules, duplicate keys, gaps, identities,
-    quarters against years) and raised together as one `InputError`.
-    """
-    started = time.perf_counter()
-    work = Path(work)
-    config = config or load_config(accounts_dir)
-    problems = [Problem(**p) for p in json.loads((work / READ_PROBLEMS_FILE).read_text())]
-    rows = pd.read_parquet(work / ROWS_FILE)
-    row_level = row_problems(rows, config)
-    problems += row_level
-    bad = pd.DataFrame([(p.file, p.row) for p in row_level], columns=["source_file", "source_row"])
-    located = pd.MultiIndex.from_frame(rows[["source_file", "source_row"]])
-    ok = rows.loc[~located.isin(pd.MultiIndex.from_frame(bad.astype({"source_row": "int64"})))]
-    if rows.empty and not problems:
-        problems.append(Problem(file=str(accounts_dir), reason="the accounts files hold no data rows"))
-    problems += duplicate_keys(ok)
-    dated = rows[rows["frequency"] != ""]  # every row with a valid period counts for contiguity
-    problems += period_gaps(dated.drop_duplicates(["economy", "item", "price_basis", "period"]))
-    is_index = ok["price_basis"].eq("index")
-    indexes, ok = ok[is_index], ok[~is_index]
-    for economy in sorted(set(indexes["economy"]) - set(ok["economy"])):
-        first = indexes[indexes["economy"] == economy].iloc[0]
-        problems.append(Problem(file=first["source_file"], row=int(first["source_row"]), economy=economy,
-                                item=first["item"], price_basis="index",
-                                reason="price index of an economy that has no accounts"))
-    if problems:
-        raise InputError(problems)
-    moved, rebalanced = reconciliation.adjusted_items(config)  # checked again after reconciliation
-    bases = set(config.benchmark.price_bases) | set(config.reconcile.price_bases)
-    con = db.connect(work / "validate.duckdb")
-    try:
-        stage_accounts(con, ok, config)
-        ident = con.table("identity_residuals").df()
-        ident = ident[~(ident["item"].isin(rebalanced) & ident["price_basis"].isin(bases))]
-        annual = con.table("annual_vs_quarters").df()
-        annual = annual[~(annual["item"].isin(moved) & annual["price_basis"].isin(bases))]
-        problems += identity_problems(ident, "components do not add to the aggregate")
-        problems += identity_problems(
-            annual,
-            "quarters do not " + ("average" if config.levels_at_annual_rate else "add") + " to the year",
-        )
-    finally:
-        con.close()
-        (work / "validate.duckdb").unlink(missing_ok=True)
-    if problems:
-        raise InputError(problems)
-    ok.to_parquet(work / VALIDATED_FILE, index=False)
-    indexes.to_parquet(work / INDEXES_FILE, index=False)
-    economies = sorted(ok["economy"].unique())
-    log.info("validated %d rows: %d economies, %d accounts series, %d price-index rows", len(ok) + len(indexes),
-             len(economies), len(ok.drop_duplicates(["economy", "item", "price_basis", "frequency"])), len(indexes))
-    _timed(work, "validate", started)
-    return economies
-
-
-@locate_problems(ROWS_FILE)
-def reconcile(accounts_dir: str | Path, work: str | Path, config: Config | None = None) -> Path:
-    """Benchmark and reconcile the validated rows as ``[benchmark]`` and ``[reconcile]`` ask.
-
-    Rewrites ``validated.parquet`` with the adjusted quarters and writes the
-    ``reconciliation`` report and its before/after checks (empty when not asked for).
-    """
-    started = time.perf_counter()
-    work = Path(work)
-    config = config or load_config(accounts_dir)
-    if reconciliation.enabled(config):
-        rows = pd.read_parquet(work / VALIDATED_FILE)
-        rows, report, checks = reconciliation.run(rows, config, Path(accounts_dir))
-        rows.to_parquet(work / VALIDATED_FILE, index=False)
-        log.info("reconciliation: %d quarterly values adjusted", int((report["adjustment"].abs() > 0).sum()))
-    else:
-        report = pd.DataFrame(columns=reconciliation.REPORT_COLUMNS)
-        checks = pd.DataFrame(columns=reconciliation.CHECK_COLUMNS)
-    _typed_report(report).to_parquet(work / RECONCILIATION_FILE, index=False)
-    checks.astype({"value": "float64", "tolerance": "float64"}).to_parquet(work / RECONCILE_CHECKS_FILE, index=False)
-    _timed(work, "reconcile", started)
-    return work / RECONCILIATION_FILE
-
-
-def _typed_report(report: pd.DataFrame) -> pd.DataFrame:
-    floats = ["before", "after", "adjustment", "adjustment_pct", "adjustment_annual", "adjustment_identity",
-              "growth_before_pct", "growth_after_pct"]
-    text = [c for c in reconciliation.REPORT_COLUMNS if c not in floats]
-    return report.astype({**{c: "float64" for c in floats}, **{c: "str" for c in text}})
-
-
-@locate_problems(ROWS_FILE)
-def derive_economy(accounts_dir: str | Path, work: str | Path, economy: str, config: Config | None = None) -> Path:
-    """Derive every table of one economy in its own DuckDB file; write its tables as parquet."""
-    from valvol import derive as steps
-
-    started = time.perf_counter()
-    work = Path(work)
-    config = config or load_config(accounts_dir)
-    folder = work / ECONOMIES_DIR / economy
-    if folder.exists():  # a retried or re-run task starts clean
-        shutil.rmtree(folder)
-    folder.mkdir(parents=True)
-    rows = pd.read_parquet(work / VALIDATED_FILE, filters=[("economy", "==", economy)])
-    indexes = pd.read_parquet(work / INDEXES_FILE, filters=[("economy", "==", economy)])
-    checks = pd.read_parquet(work / RECONCILE_CHECKS_FILE, filters=[("economy", "==", economy)])
-    con = db.connect(folder / DB_FILE, threads=1)
-    try:
-        stage_accounts(con, rows, config)
-        steps.derive_all(con, config, indexes=indexes, extra_checks=checks)
-        for name in TABLES:
-            pq.write_table(db.query_arrow(con, f"out_{name}"), folder / f"{name}.parquet")
-    finally:
-        con.close()
-    (folder / DB_FILE).unlink()
-    # each economy keeps its own time (tasks may run at once); write() adds them up
-    (folder / TIMINGS_FILE).write_text(json.dumps({"derive": time.perf_counter() - started}))
-    return folder
-
-
-def write(
-    accounts_dir: str | Path,
-    work: str | Path,
-    config: Config | None = None,
-    *,
-    out_dir: str | Path | None = None,
-    label: str | None = None,
-    charts: bool = True,
-    chart_economies: list[str] | None = None,
-) -> Path:
-    """Combine the economies' tables, validate and write them, draw charts, compare with ``latest``.
-
-    Writes ``work/<table>.parquet`` (one ordered file per table), ``work/valvol.duckdb``
-    holding the same tables, ``work/charts/``, the revisions against the latest vintage
-    of ``out_dir`` (when there is one) and, last, ``manifest.json``.
-    """
-    from valvol.charts import draw_charts
-    from valvol.io.writers import write_tables
-    from valvol.manifest import build_manifest
-
-    started = time.perf_counter()
-    work = Path(work)
-    config = config or load_config(accounts_dir)
-    economies = sorted(p.name for p in (work / ECONOMIES_DIR).iterdir()) if (work / ECONOMIES_DIR).exists() else []
-    tables = {
-        name: pa.concat_tables([pq.read_table(work / ECONOMIES_DIR / e / f"{name}.parquet") for e in economies])
-        for name in TABLES
-    }
-    revisions = _revisions_against_latest(Path(out_dir), tables) if out_dir is not None else {}
-    tables["reconciliation"] = pq.read_table(work / RECONCILIATION_FILE)
-    counts = write_tables(work, {**tables, **revisions})
-    checks = tables["checks"].column("status").to_pandas().value_counts().to_dict()
-    derive_s = sum(json.loads((work / ECONOMIES_DIR / e / TIMINGS_FILE).read_text())["derive"] for e in economies)
-    shutil.rmtree(work / ECONOMIES_DIR, ignore_errors=True)
-    (work / "charts").mkdir(exist_ok=True)
-    drawn = draw_charts(work, chart_economies) if charts else []
-    _timed(work, "write", started)
-    timings = json.loads((work / TIMINGS_FILE).read_text()) | {"derive": round(derive_s, 3)}
-    for name in SCRATCH:
-        (work / name).unlink(missing_ok=True)
-    options = rebuild_options(label, charts, chart_economies)
-    manifest = build_manifest(Path(accounts_dir), config, counts, checks, timings, options=options)
-    manifest["charts"] = sorted(str(p.relative_to(work)) for p in drawn)
-    manifest["revised_against"] = revisions and json.loads(
-        (Path(out_dir) / pub.LATEST / MANIFEST_FILE).read_text())["vintage"] or None
-    (work / MANIFEST_FILE).write_text(json.dumps(manifest, indent=2, sort_keys=True) + "\n")
-    log.info("wrote %s", ", ".join(f"{t} ({n} rows)" for t, n in counts.items()))
-    if drawn:
-        log.info("drew %d chart file(s)", len(drawn))
-    return work / MANIFEST_FILE
-
-
-def _revisions_against_latest(out_dir: Path, tables: dict[str, pa.Table]) -> dict[str, pa.Table]:
-    """Revisions of these tables against the latest published vintage (none for a first one)."""
-    from valvol.methods.revisions import revision_summary, revisions
-
-    latest = out_dir / pub.LATEST
-    if not (latest / MANIFEST_FILE).exists():
-        return {}
-    earlier = {t: pd.read_parquet(latest / f"{t}.parquet") for t in TABLES if (latest / f"{t}.parquet").exists()}
-    revs = revisions(earlier, {t: tbl.to_pandas() for t, tbl in tables.items()})
-    return {
-        "revisions": pa.Table.from_pandas(revs, preserve_index=False),
-        "revision_summary": pa.Table.from_pandas(revision_summary(revs), preserve_index=False),
-    }
-
-
-def publish(work: str | Path, out_dir: str | Path) -> Path:
-    """Move the finished work folder into ``out_dir/vintages`` and switch ``latest`` to it."""
-    work, out_dir = Path(work), Path(out_dir)
-    manifest = json.loads((work / MANIFEST_FILE).read_text())
-    links = [f"{t}.parquet" for t in (*TABLES, "reconciliation", *REVISION_TABLES)] + [MANIFEST_FILE, DB_FILE,
-                                                                                      "charts"]
-    target = pub.publish(work, out_dir, manifest["vintage"], [n for n in links if (work / n).exists()])
-    log.info("published vintage %s in %s", target.name, out_dir)
-    return target
 
 
 def rebuild_options(label: str | None, charts: bool, chart_economies: list[str] | None) -> dict:
@@ -341,92 +481,39 @@ def unchanged_since_latest(accounts_dir: str | Path, out_dir: str | Path, config
     return (Path(out_dir) / pub.LATEST).resolve()
 
 
-def reconciled_accounts(accounts_dir: str | Path, to_dir: str | Path) -> pd.DataFrame:
-    """Benchmark and reconcile a folder; write the adjusted accounts in the input format to ``to_dir``.
-
-    ``to_dir`` gets ``accounts.csv`` (every row, quarters adjusted), a copy of ``valvol.toml``
-    and ``reconciliation/report.csv`` (a sub-folder, so it is not read as accounts). Returns
-    the report. Rebuilding ``to_dir`` reproduces the reconciled accounts (a second
-    reconciliation of consistent data moves nothing).
-    """
-    import tempfile
-
-    from valvol.config import CONFIG_FILE
-
-    config = load_config(accounts_dir)
-    to_dir = Path(to_dir)
-    with tempfile.TemporaryDirectory(prefix="valvol-reconcile-") as tmp:
-        load(accounts_dir, tmp)
-        validate(accounts_dir, tmp, config)
-        reconcile(accounts_dir, tmp, config)
-        rows = pd.concat([pd.read_parquet(Path(tmp) / VALIDATED_FILE), pd.read_parquet(Path(tmp) / INDEXES_FILE)])
-        report = pd.read_parquet(Path(tmp) / RECONCILIATION_FILE)
-    rows = rows.sort_values(["source_file", "source_row"], kind="mergesort")
-    out = rows[["economy", "period", "item", "price_basis", "value", "adjustment", "unit"]].copy()
-    out["value"] = out["value"].map(repr)
-    to_dir.mkdir(parents=True, exist_ok=True)
-    (to_dir / "reconciliation").mkdir(exist_ok=True)
-    out.to_csv(to_dir / "accounts.csv", index=False)
-    report.to_csv(to_dir / "reconciliation" / "report.csv", index=False)
-    if (Path(accounts_dir) / CONFIG_FILE).exists():
-        shutil.copyfile(Path(accounts_dir) / CONFIG_FILE, to_dir / CONFIG_FILE)
-    for name in {config.benchmark.benchmarks, config.reconcile.benchmarks} - {""}:  # files the config names
-        (to_dir / name).parent.mkdir(parents=True, exist_ok=True)
-        shutil.copyfile(Path(accounts_dir) / name, to_dir / name)
-    log.info("wrote reconciled accounts (%d rows) and the report to %s", len(out), to_dir)
-    return report
-
-
-def check(accounts_dir: str | Path, work: str | Path) -> int:
-    """Every rule a rebuild applies (load, validate, reconcile, derive), writing nothing; the rows checked."""
-    config = load_config(accounts_dir)
-    load(accounts_dir, work)
-    n = len(pd.read_parquet(Path(work) / ROWS_FILE))
-    economies = validate(accounts_dir, work, config)
-    reconcile(accounts_dir, work, config)
-    problems: list[Problem] = []
-    for economy in economies:
-        try:
-            derive_economy(accounts_dir, work, economy, config)
-        except InputError as err:
-            problems += err.problems
-    if problems:
-        raise InputError(problems)
-    return n
-
-
 @dataclass(frozen=True)
 class Session:
-    """One rebuild's hold on an output root: its config, and its work folder or the unchanged vintage."""
+    """One rebuild's hold on an output root: its run, or the unchanged vintage (``run`` None)."""
 
-    config: Config
-    work: Path | None
+    run: Run | None
     unchanged: Path | None
 
 
 @contextmanager
-def session(accounts_dir: str | Path, out_dir: str | Path, *, force: bool = False,
-            options: dict | None = None) -> Iterator[Session]:
+def session(accounts_dir: str | Path, out_dir: str | Path, *, force: bool = False, options: dict | None = None,
+            config: Config | None = None, chunk_size: int = 0, workers: int = 0) -> Iterator[Session]:
     """Hold the output lock for one rebuild, shared by `rebuild` and the Prefect flow.
 
-    Yields the unchanged latest vintage (``work`` None) when inputs, code, config and
-    options are as in ``latest`` and ``force`` is False; otherwise a fresh staging folder,
-    removed on any failure and whenever the body ends without publishing it.
+    Reads the configuration once (unless given). Yields the unchanged latest vintage when
+    inputs, code, config and options are as in ``latest`` and ``force`` is False; otherwise a
+    `Run` in a fresh staging folder, removed on any failure and whenever the body ends without
+    publishing it.
     """
-    if not Path(accounts_dir).is_dir():
+    accounts_dir, out_dir = Path(accounts_dir), Path(out_dir)
+    if not accounts_dir.is_dir():
         raise InputError([Problem(file=str(accounts_dir), reason="accounts folder does not exist")])
-    out_dir = Path(out_dir)
+    options = options if options is not None else rebuild_options(None, True, None)
     pub.check_output_folder(accounts_dir, out_dir)  # before anything is written
     with pub.output_lock(out_dir):
-        config = load_config(accounts_dir)
+        config = config or load_config(accounts_dir)
         same = None if force else unchanged_since_latest(accounts_dir, out_dir, config, options)
         if same is not None:
             log.info("inputs, code and config unchanged since vintage %s: nothing to do", same.name)
-            yield Session(config, None, same)
+            yield Session(None, same)
             return
         work = pub.new_staging_dir(out_dir)
         try:
-            yield Session(config, work, None)
+            yield Session(Run(accounts_dir, work, config, out_dir, options, chunk_size, workers), None)
         finally:
             pub.discard_staging(work)  # a no-op once published (the folder has moved)
 
@@ -439,22 +526,56 @@ def rebuild(
     label: str | None = None,
     charts: bool = True,
     chart_economies: list[str] | None = None,
+    chunk_size: int = 0,
+    workers: int = 0,
 ) -> RebuildResult:
-    """Run every stage without Prefect and publish atomically (the flow does the same as tasks)."""
+    """Run every stage without Prefect and publish atomically (the flow runs the same stages as tasks)."""
     options = rebuild_options(label, charts, chart_economies)
-    with session(accounts_dir, out_dir, force=force, options=options) as run:
-        if run.unchanged is not None:
-            return result_of(run.unchanged, unchanged=True)
-        work, config = run.work, run.config
-        load(accounts_dir, work)
-        economies = validate(accounts_dir, work, config)
-        reconcile(accounts_dir, work, config)
-        for economy in economies:  # fan-out: one economy at a time here
-            derive_economy(accounts_dir, work, economy, config)
-        write(accounts_dir, work, config, out_dir=out_dir, label=label, charts=charts,
-              chart_economies=chart_economies)
-        target = publish(work, out_dir)
+    with session(accounts_dir, out_dir, force=force, options=options, chunk_size=chunk_size,
+                 workers=workers) as s:
+        if s.unchanged is not None:
+            return result_of(s.unchanged, unchanged=True)
+        problems = run_stages(s.run)
+        if problems:
+            raise InputError(problems)
+        target = (Path(out_dir) / pub.LATEST).resolve()
     return result_of(target)
+
+
+def check(accounts_dir: str | Path, work: str | Path, *, chunk_size: int = 0) -> int:
+    """Every rule a rebuild applies (the stages up to ``check``) in ``work``, publishing nothing.
+
+    Returns the number of rows read; raises `InputError` with every problem found.
+    """
+    run = Run(Path(accounts_dir), Path(work), load_config(accounts_dir), chunk_size=chunk_size)
+    problems = run_stages(run, stages_until("check"))
+    if problems:
+        raise InputError(problems)
+    return workfiles.read_table(run.work / ROWS_FILE).num_rows
+
+
+def reconciled_accounts(accounts_dir: str | Path, to_dir: str | Path) -> pd.DataFrame:
+    """Benchmark and reconcile a folder (the stages up to ``reconcile``); write the adjusted accounts.
+
+    ``to_dir`` gets ``accounts.csv`` (every row, quarters adjusted), a copy of ``valvol.toml``
+    and ``reconciliation/report.csv`` (a sub-folder, so it is not read as accounts), plus
+    the benchmarks files the configuration names. Returns the report. Rebuilding ``to_dir``
+    reproduces the reconciled accounts (a second reconciliation of consistent data moves
+    nothing).
+    """
+    import tempfile
+
+    with tempfile.TemporaryDirectory(prefix="valvol-reconcile-") as tmp:
+        run = Run(Path(accounts_dir), Path(tmp), load_config(accounts_dir))
+        problems = run_stages(run, stages_until("reconcile"))
+        if problems:
+            raise InputError(problems)
+        rows = pd.concat([workfiles.read_frame(run.work / VALIDATED_FILE),
+                          workfiles.read_frame(run.work / INDEXES_FILE)])
+        report = workfiles.read_frame(run.work / RECONCILIATION_FILE)
+    reconciliation.export_accounts(rows, report, run.config, Path(accounts_dir), Path(to_dir))
+    log.info("wrote reconciled accounts (%d rows) and the report to %s", len(rows), to_dir)
+    return report
 
 
 def result_of(target: Path, unchanged: bool = False) -> RebuildResult:
@@ -467,3 +588,20 @@ def result_of(target: Path, unchanged: bool = False) -> RebuildResult:
         warnings=manifest["checks"].get("warn", 0),
         unchanged=unchanged,
     )
+
+
+def _revisions_against_latest(out_dir: Path | None, work: Path) -> tuple[str | None, dict[str, pa.Table]]:
+    """Revisions of the tables written in ``work`` against the latest published vintage, and its name."""
+    from valvol.methods.revisions import revision_summary, revisions
+
+    latest = out_dir / pub.LATEST if out_dir is not None else None
+    if latest is None or not (latest / MANIFEST_FILE).exists():
+        return None, {}
+    names = [t for t in TABLES if (latest / f"{t}.parquet").exists()]
+    earlier = {t: pd.read_parquet(latest / f"{t}.parquet") for t in names}
+    revs = revisions(earlier, {t: pd.read_parquet(work / f"{t}.parquet") for t in names})
+    vintage = json.loads((latest / MANIFEST_FILE).read_text())["vintage"]
+    return vintage, {
+        "revisions": pa.Table.from_pandas(revs, preserve_index=False),
+        "revision_summary": pa.Table.from_pandas(revision_summary(revs), preserve_index=False),
+    }

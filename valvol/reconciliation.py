@@ -12,14 +12,20 @@ per method, `valvol.methods.benchmark` and `valvol.methods.reconcile`):
    (inventories, valuables) keep their first differences rather than their proportional
    movements.
 
-Annual values: the years given in the accounts (or in the ``benchmarks`` file, a CSV or
-parquet file in the input format, in a sub-folder of the accounts folder so that it is not
-read as accounts); every other complete year keeps the sum (or mean) of its own quarters.
-Only the quarters from ``first_year`` on may move (default: the year before the first given
-annual value, so that the adjustment of a new benchmark year is spread smoothly into the
-year before it without changing that year's total; earlier quarters stay as they are). Quarters past the
-last benchmark are extrapolated as the methods' docstrings say (flat benchmark-to-indicator
-ratio for proportional Denton).
+Benchmarks: only the years given, in the accounts' annual rows or in the ``benchmarks`` file
+(a CSV or parquet file in the input format, in a sub-folder of the accounts folder so that it
+is not read as accounts), never years summed from the quarters being benchmarked. Only the
+quarters from ``first_year`` on may move (default: the year before the first given annual
+value); the complete years from there up to a series' first given year keep the total of
+their own quarters, so that the adjustment of the first benchmark year is spread smoothly
+into the year before it without changing that year's total (earlier quarters stay as they
+are). A year between two benchmarks is bridged and the quarters past the last benchmark are
+extrapolated by the method (Denton 1971, Cholette 1984, IMF QNA 2017 ch. 6): the
+benchmark-to-indicator ratio stays flat at its last benchmarked quarter's value
+(proportional Denton), so does X - I (additive Denton), the fitted relation goes on (Chow-Lin:
+X beta plus the AR(1)-carried residual); in ``[reconcile]`` such quarters are bound only by
+the quarterly identity. A ``[benchmark]`` series with no given year in the window stays as
+it is.
 
 Outputs: the adjusted rows (same shape as the validated rows), the ``reconciliation`` report
 (economy, period, item, price_basis, step, before, after, adjustment, adjustment_pct,
@@ -78,18 +84,36 @@ def reconcile_components(config: Config) -> dict[str, int]:
     return comps
 
 
-def _annual_targets(rows: pd.DataFrame, items: set[str], bases: tuple[str, ...], annual_rate: bool,
+def _annual_targets(rows: pd.DataFrame, items: set[str], bases: tuple[str, ...], year_from_quarters: str,
                     given: pd.DataFrame | None) -> pd.DataFrame:
-    """Benchmarks: given years, else the sum (mean at annual rate) of each complete year's quarters."""
-    sel = rows[rows["item"].isin(items) & rows["price_basis"].isin(bases)]
-    q = sel[sel["frequency"] == "Q"]
-    own = q.groupby(["economy", "price_basis", "item", "year"])["value"].agg(["sum", "size"]).reset_index()
-    own = own[own["size"] == 4].assign(value=lambda d: d["sum"] / 4 if annual_rate else d["sum"])
-    annual = sel[sel["frequency"] == "A"] if given is None else given
-    annual = annual[annual["item"].isin(items) & annual["price_basis"].isin(bases)]
+    """Annual constraints of each series: its given years, then the join years before them.
+
+    Given years (``given`` = True): the ``benchmarks`` file, else the annual rows of the
+    accounts; these are the only benchmarks. Join years (``given`` = False): each complete
+    year before the series' first given year keeps the aggregate of its own quarters,
+    sum_q w_q I_q (w from ``year_from_quarters``), so that, once the window starts at
+    ``first_year``, the move into the first benchmark is spread within those years without
+    changing their totals. No other year gets a constraint: a year between two benchmarks is
+    bridged and the quarters past the last benchmark are extrapolated by the method (flat
+    benchmark-to-indicator ratio for proportional Denton, flat X - I for additive Denton, the
+    fitted relation for Chow-Lin; Denton 1971, Cholette 1984, IMF QNA 2017 ch. 6). Holding
+    them to their own sums instead would be a circular benchmark that drags them to the
+    indicator's scale. A series with no given year gets no row at all.
+    """
+    from valvol.methods.benchmark import YEAR_FROM_QUARTERS
+
     key = ["economy", "price_basis", "item", "year"]
-    out = pd.concat([annual[key + ["value"]], own[key + ["value"]]]).drop_duplicates(key, keep="first")
-    return out.rename(columns={"item": "series"})
+    sel = rows[rows["item"].isin(items) & rows["price_basis"].isin(bases)]
+    annual = sel[sel["frequency"] == "A"] if given is None else given
+    annual = annual[annual["item"].isin(items) & annual["price_basis"].isin(bases)][key + ["value"]]
+    first = annual.groupby(key[:-1], as_index=False)["year"].min().rename(columns={"year": "first"})
+    q = sel[sel["frequency"] == "Q"]
+    w = np.asarray(YEAR_FROM_QUARTERS[year_from_quarters])
+    q = q.assign(value=q["value"].to_numpy(dtype="float64") * w[q["quarter"].to_numpy(dtype="int64") - 1])
+    own = q.groupby(key)["value"].agg(["sum", "size"]).reset_index().merge(first, on=key[:-1])
+    own = own[(own["size"] == 4) & (own["year"] < own["first"])].rename(columns={"sum": "value"})
+    out = pd.concat([annual.assign(given=True), own[key + ["value"]].assign(given=False)], ignore_index=True)
+    return out.astype({"given": bool}).rename(columns={"item": "series"})
 
 
 def _window(frames: list[pd.DataFrame | None], first_year: int) -> list[pd.DataFrame | None]:
@@ -123,21 +147,25 @@ def run(rows: pd.DataFrame, config: Config, accounts_dir: Path) -> tuple[pd.Data
     if b.items:
         ind = rows[(rows["frequency"] == "Q") & rows["item"].isin(b.items) & rows["price_basis"].isin(b.price_bases)]
         ind = ind.rename(columns={"item": "series"})[_BY + ["series", "year", "quarter", "value"]]
-        targets = _annual_targets(rows, set(b.items), b.price_bases, annual_rate, given)
+        sf = b.year_from_quarters or year_from_quarters
+        targets = _annual_targets(rows, set(b.items), b.price_bases, sf, given)
         ind, targets = _window([ind, targets], _first_year(b.first_year, rows, b.items, b.price_bases, given))
         by = _BY + ["series"]
-        sf = b.year_from_quarters or year_from_quarters
-        if b.method == "chow_lin":
-            out, _ = bm.chow_lin(ind, targets, rho=b.rho, year_from_quarters=sf, by=by)
-        else:
-            out = bm.denton(ind, targets, method="proportional" if b.method == "proportional_denton" else "additive",
-                            year_from_quarters=sf, on_nonpositive=b.on_nonpositive, by=by)
-        out = _snap(out.rename(columns={"series": "item", "indicator": "before", "value": "after"}))
-        out["constraint"] = np.where(out["benchmarked"], "annual benchmark " + out["year"].astype(str),
-                                     "annual benchmarks (extrapolated)")
-        reports.append(_report(out, "benchmark"))
-        rows = _apply(rows, out)
-        checks.append(_annual_checks(out, targets, "benchmark_annual", annual_rate))
+        # a series with no given year in the window has nothing to be benchmarked to: it stays as it is
+        ind = ind.merge(targets.loc[targets["given"], by].drop_duplicates(), on=by)
+        if len(ind):
+            if b.method == "chow_lin":
+                out, _ = bm.chow_lin(ind, targets[targets["given"]], rho=b.rho, year_from_quarters=sf, by=by,
+                                     held=targets[~targets["given"]])
+            else:
+                out = bm.denton(ind, targets, method="proportional" if b.method == "proportional_denton" else "additive",
+                                year_from_quarters=sf, on_nonpositive=b.on_nonpositive, by=by)
+            out = _snap(out.rename(columns={"series": "item", "indicator": "before", "value": "after"}))
+            out["constraint"] = np.where(out["benchmarked"], "annual benchmark " + out["year"].astype(str),
+                                         "annual benchmarks (extrapolated)")
+            reports.append(_report(out, "benchmark"))
+            rows = _apply(rows, out)
+            checks.append(_annual_checks(out, targets, "benchmark_annual", sf))
     r = config.reconcile
     if r.aggregate:
         signs = reconcile_components(config)
@@ -149,7 +177,7 @@ def run(rows: pd.DataFrame, config: Config, accounts_dir: Path) -> tuple[pd.Data
         if total.empty:
             raise InputError([Problem(item=r.aggregate, reason="[reconcile] the aggregate has no quarterly values "
                                       "at the price bases asked for")])
-        targets = _annual_targets(rows, set(signs), r.price_bases, annual_rate, given)
+        targets = _annual_targets(rows, set(signs), r.price_bases, year_from_quarters, given).drop(columns="given")
         first = _first_year(r.first_year, rows, signs, r.price_bases, given)
         comps, total, disc, targets = _window([comps, total, disc, targets], first)
         systems = total[_BY].drop_duplicates()  # economies with quarterly totals (not annual-only ones)
@@ -201,12 +229,15 @@ def _apply(rows: pd.DataFrame, out: pd.DataFrame) -> pd.DataFrame:
     return rows
 
 
-def _annual_checks(out: pd.DataFrame, targets: pd.DataFrame, name: str, annual_rate: bool) -> pd.DataFrame:
-    agg = out.groupby(["economy", "price_basis", "item", "year"])[["before", "after"]].agg(["sum", "size"])
+def _annual_checks(out: pd.DataFrame, targets: pd.DataFrame, name: str, year_from_quarters: str) -> pd.DataFrame:
+    """Each annual constraint against the aggregate sum_q w_q X_q of its year's quarters, before and after."""
+    from valvol.methods.benchmark import YEAR_FROM_QUARTERS
+
+    w = np.asarray(YEAR_FROM_QUARTERS[year_from_quarters])[out["quarter"].to_numpy(dtype="int64") - 1]
+    weighted = out.assign(before=out["before"] * w, after=out["after"] * w)
+    agg = weighted.groupby(["economy", "price_basis", "item", "year"])[["before", "after"]].agg(["sum", "size"])
     agg.columns = ["before", "n", "after", "n2"]
     agg = agg[agg["n"] == 4].reset_index()
-    if annual_rate:
-        agg[["before", "after"]] /= 4
     t = targets.rename(columns={"series": "item", "value": "benchmark"})
     m = agg.merge(t, on=["economy", "price_basis", "item", "year"])
     rows = []
@@ -250,7 +281,7 @@ def _benchmark_file(accounts_dir: Path, config: Config) -> pd.DataFrame | None:
     if path.parent.resolve() == Path(accounts_dir).resolve():
         raise ConfigError(f"{key}: file {name} must sit in a sub-folder: every file of the accounts folder "
                           "is read as accounts", file=config.source)
-    raw, problems = read_file(path, name)
+    raw, problems = read_file(path, name, config.carry_columns)
     if raw is None:
         raise InputError(problems)
     rows = parse_rows(raw)
@@ -260,3 +291,32 @@ def _benchmark_file(accounts_dir: Path, config: Config) -> pd.DataFrame | None:
     if problems:
         raise InputError(problems)
     return rows
+
+
+def typed_report(report: pd.DataFrame) -> pd.DataFrame:
+    """The report with its published column types (floats and text), also when empty."""
+    floats = ["before", "after", "adjustment", "adjustment_pct", "adjustment_annual", "adjustment_identity",
+              "growth_before_pct", "growth_after_pct"]
+    text = [c for c in REPORT_COLUMNS if c not in floats]
+    return report.astype({**{c: "float64" for c in floats}, **{c: "str" for c in text}})
+
+
+def export_accounts(rows: pd.DataFrame, report: pd.DataFrame, config: Config, accounts_dir: Path,
+                    to_dir: Path) -> None:
+    """Write reconciled rows in the input format: ``accounts.csv``, the config, the report, benchmarks files."""
+    import shutil
+
+    from valvol.config import CONFIG_FILE
+
+    rows = rows.sort_values(["source_file", "source_row"], kind="mergesort")
+    out = rows[["economy", "period", "item", "price_basis", "value", "adjustment", "unit"]].copy()
+    out["value"] = out["value"].map(repr)
+    to_dir.mkdir(parents=True, exist_ok=True)
+    (to_dir / "reconciliation").mkdir(exist_ok=True)
+    out.to_csv(to_dir / "accounts.csv", index=False)
+    report.to_csv(to_dir / "reconciliation" / "report.csv", index=False)
+    if (accounts_dir / CONFIG_FILE).exists():
+        shutil.copyfile(accounts_dir / CONFIG_FILE, to_dir / CONFIG_FILE)
+    for name in {config.benchmark.benchmarks, config.reconcile.benchmarks} - {""}:  # files the config names
+        (to_dir / name).parent.mkdir(parents=True, exist_ok=True)
+        shutil.copyfile(accounts_dir / name, to_dir / name)

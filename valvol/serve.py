@@ -115,7 +115,7 @@ def serve(
 
     if (cron is None) == (interval is None):
         raise ValvolError("give exactly one of --cron or --interval")
-    prefect_env.configure(out_dir)
+    prefect_env.configure()
     parameters = {"accounts_dir": str(accounts_dir.resolve()), "out_dir": str(out_dir.resolve()), "force": force}
     signal.signal(signal.SIGTERM, lambda *_: (_ for _ in ()).throw(KeyboardInterrupt()))
     if os.environ.get("PREFECT_API_URL"):

@@ -8,10 +8,7 @@ contiguous periods (`period_gaps`), identities (`identity_problems`).
 
 from __future__ import annotations
 
-import functools
-from collections.abc import Callable
 from pathlib import Path
-from typing import TypeVar
 
 import numpy as np
 import pandas as pd
@@ -21,6 +18,7 @@ from valvol.config import Config
 from valvol.errors import InputError, Problem, ValvolError, found
 from valvol.periods import parse_periods, quarter_index
 from valvol.schemas import input as input_schema
+from valvol.schemas.checks import key_codes
 from valvol.schemas.outputs import identity_residuals
 
 _LOCATE = ["source_file", "source_row", "economy", "item", "period_text", "price_basis"]
@@ -33,6 +31,26 @@ class StageError(ValvolError):
     """A derived table broke its schema: a defect or a degenerate input not caught earlier."""
 
     exit_code = 1
+
+
+def check_table(name: str, table, carried: tuple[str, ...] = ()) -> None:
+    """A published table against its pandera model; `StageError` when it breaks it (or has none).
+
+    ``carried``: text columns carried from the input (``carry_columns``) that the table holds
+    besides its model's columns.
+    """
+    from valvol.schemas.outputs import TABLES as SCHEMAS
+
+    schema = SCHEMAS.get(name)
+    if schema is None:
+        raise StageError(f"table {name} has no pandera model: not written")
+    if carried:
+        schema = schema.add_columns({c: pa.Column(str) for c in carried})
+    frame = table.to_pandas() if hasattr(table, "to_pandas") else table
+    problems = run_schema(schema, frame)
+    if problems:
+        shown = "\n".join(p.render() for p in problems[:20])
+        raise StageError(f"table {name} breaks its schema ({len(problems)} problem(s)):\n{shown}")
 
 
 def parse_rows(raw: pd.DataFrame) -> pd.DataFrame:
@@ -105,7 +123,7 @@ def row_problems(rows: pd.DataFrame, config: Config) -> list[Problem]:
 def duplicate_keys(rows: pd.DataFrame) -> list[Problem]:
     """Two rows for one (economy, item, price_basis, period), in one file or across files."""
     key = ["economy", "item", "price_basis", "period"]
-    dup = rows[rows.duplicated(key, keep=False)]
+    dup = rows[pd.Series(key_codes(rows, key)).duplicated(keep=False).to_numpy()]
     if dup.empty:
         return []
     cols = ["source_file", "source_row"] + (["period_text"] if "period_text" in rows else [])
@@ -134,9 +152,13 @@ def period_gaps(rows: pd.DataFrame) -> list[Problem]:
         [quarter_index(df["year"], df["quarter"].clip(lower=1)), df["year"] * 12 + df["month"] - 1],
         df["year"],
     )
-    df = df.sort_values(key + ["idx"], kind="mergesort")
-    step = df.groupby(key, sort=False)["idx"].diff()
-    gaps = df[step > 1].assign(prev=df["idx"].shift()[step > 1])
+    series = key_codes(df, key)
+    idx = df["idx"].to_numpy()
+    order = np.lexsort((idx, series))  # by series, then period
+    series, idx = series[order], idx[order]
+    step = np.r_[0, np.diff(idx)]
+    gap = np.flatnonzero((step > 1) & np.r_[False, series[1:] == series[:-1]])
+    gaps = df.iloc[order[gap]].assign(prev=idx[gap - 1])
     out = []
     for _, g in gaps.iterrows():
         first, last = int(g["prev"]) + 1, int(g["idx"]) - 1
@@ -169,28 +191,63 @@ def identity_problems(residuals: pd.DataFrame, what: str) -> list[Problem]:
     ]
 
 
-F = TypeVar("F", bound=Callable)
+def validate_rows(rows: pd.DataFrame, config: Config, accounts_dir: Path,
+                  problems: list[Problem]) -> tuple[pd.DataFrame, pd.DataFrame, dict]:
+    """Every input rule over the whole panel: return (accounts rows, price-index rows, staged tables).
 
-
-def locate_problems(rows_file: str) -> Callable[[F], F]:
-    """Decorate a stage ``f(accounts_dir, work, ...)``: its `InputError` problems gain file and row.
-
-    Problems found on derived panels (a zero volume, a broken identity, quarters that do not
-    add to the year) name economy, item, price basis and period; `locate` adds the file and
-    row of the input row of ``work/rows_file`` they are about, or the file of their series.
+    ``problems`` are those already found (reading the files). Row rules, duplicate keys,
+    gaps and price indexes of economies without accounts are checked first; if the rows pass,
+    the identities (components against aggregates, quarters against years) are checked in
+    DuckDB, except those that benchmarking or reconciliation will restore; the tables staged
+    for that (`valvol.staging.STAGED_TABLES`) are returned as Arrow tables. Raises
+    `InputError` with every problem found.
     """
-    def decorate(stage: F) -> F:
-        @functools.wraps(stage)
-        def run(accounts_dir, work, *args, **kwargs):
-            try:
-                return stage(accounts_dir, work, *args, **kwargs)
-            except InputError as err:
-                path = Path(work) / rows_file
-                if not path.exists():
-                    raise
-                raise InputError(locate(err.problems, pd.read_parquet(path))) from None
-        return run  # type: ignore[return-value]
-    return decorate
+    from valvol import db, reconciliation
+    from valvol.staging import stage_accounts, staged_tables
+
+    problems = list(problems)
+    row_level = row_problems(rows, config)
+    problems += row_level
+    bad = pd.DataFrame([(p.file, p.row) for p in row_level], columns=["source_file", "source_row"])
+    located = pd.MultiIndex.from_frame(rows[["source_file", "source_row"]])
+    ok = rows.loc[~located.isin(pd.MultiIndex.from_frame(bad.astype({"source_row": "int64"})))]
+    if rows.empty and not problems:
+        problems.append(Problem(file=str(accounts_dir), reason="the accounts files hold no data rows"))
+    problems += duplicate_keys(ok)
+    dated = rows[rows["frequency"] != ""]  # every row with a valid period counts for contiguity
+    problems += period_gaps(dated[~pd.Series(key_codes(dated, ["economy", "item", "price_basis", "period"]))
+                                   .duplicated().to_numpy()])
+    is_index = ok["price_basis"].eq("index")
+    indexes, ok = ok[is_index], ok[~is_index]
+    for economy in sorted(set(pd.unique(indexes["economy"])) - set(pd.unique(ok["economy"]))):
+        first = indexes[indexes["economy"] == economy].iloc[0]
+        problems.append(Problem(file=first["source_file"], row=int(first["source_row"]), economy=economy,
+                                item=first["item"], price_basis="index",
+                                reason="price index of an economy that has no accounts"))
+    if problems:
+        raise InputError(problems)
+    from valvol.methods.index_bases import convert  # volume_index, price_index -> chain_linked (and current)
+
+    ok, problems = convert(ok, config)
+    if problems:
+        raise InputError(problems)
+    moved, rebalanced = reconciliation.adjusted_items(config)  # checked again after reconciliation
+    bases = set(config.benchmark.price_bases) | set(config.reconcile.price_bases)
+    con = db.connect()
+    try:
+        stage_accounts(con, ok, config)
+        staged = staged_tables(con)
+    finally:
+        con.close()
+    ident, annual = staged["identity_residuals"].to_pandas(), staged["annual_vs_quarters"].to_pandas()
+    ident = ident[~(ident["item"].isin(rebalanced) & ident["price_basis"].isin(bases))]
+    annual = annual[~(annual["item"].isin(moved) & annual["price_basis"].isin(bases))]
+    problems += identity_problems(ident, "components do not add to the aggregate")
+    problems += identity_problems(
+        annual, "quarters do not " + ("average" if config.levels_at_annual_rate else "add") + " to the year")
+    if problems:
+        raise InputError(problems)
+    return ok, indexes, staged
 
 
 def locate(problems: list[Problem], rows: pd.DataFrame) -> list[Problem]:

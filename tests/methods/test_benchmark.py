@@ -145,6 +145,79 @@ def test_extrapolation_keeps_the_end_ratio_or_difference_flat():
     np.testing.assert_allclose(u[:4], u[4], atol=1e-9)
 
 
+def index_and_money(seed=21):
+    """An indicator on an index scale (near 100) over 2021..2023 and money benchmarks (near
+    5,000) for 2021 and 2022 only, with a benchmark-to-indicator ratio that differs by year."""
+    rng = np.random.default_rng(seed)
+    i = 100.0 * np.exp(np.cumsum(rng.normal(0.005, 0.01, 12)))
+    bench = [i[0:4].sum() * 12.4, i[4:8].sum() * 12.9]  # about 5,000 a year
+    return quarterly("P51G", 2021, i), annual("P51G", [2021, 2022], bench), i
+
+
+def test_index_indicator_money_benchmarks_past_the_last_benchmark():
+    """Denton (1971) with the Cholette (1984) modification; IMF QNA 2017 ch. 6. The quarters
+    of 2023 (no benchmark) enter the objective only through the terms (r_t - r_{t-1})^2 with
+    t past 2022-Q4, which no constraint binds, so the minimum sets each to zero: r stays at
+    its 2022-Q4 value (derived from the objective); the same for X - I under the additive
+    variant. They are the indicator times the last ratio (about 13), not the indicator's own
+    2023 sum (about 420)."""
+    ind, bench, i = index_and_money()
+    pfd = denton(ind, bench)
+    x = pfd["value"].to_numpy()
+    np.testing.assert_allclose(x[8:], x[7] / i[7] * i[8:], rtol=1e-9)
+    np.testing.assert_allclose([x[:4].sum(), x[4:8].sum()], bench["value"], rtol=1e-12)
+    assert x[8:].sum() > 12 * i[8:].sum()  # about 5,500, not 420
+    assert pfd["benchmarked"].to_numpy()[:8].all() and not pfd["benchmarked"].to_numpy()[8:].any()
+    afd = denton(ind, bench, method="additive")
+    u = afd["value"].to_numpy() - i
+    np.testing.assert_allclose(u[8:], u[7], rtol=1e-9)
+    np.testing.assert_allclose(afd["value"].to_numpy()[8:], i[8:] + u[7], rtol=1e-9)
+
+
+def test_chow_lin_fixed_rho_extrapolates_the_fit_and_a_decaying_residual():
+    """Chow & Lin (1971); IMF QNA 2017 ch. 6. Past the last benchmarked quarter T the result is
+    b0 + b1 I_t + rho^(t-T) u_T: the residual is Sigma C' V_a^-1 (y_a - C X b), and for t > T
+    every entry of row t of Sigma = rho^|t-s| / (1 - rho^2) over s <= T is rho^(t-T) times
+    that of row T (hand derivation)."""
+    rho = 0.6
+    i, years, bench = chow_lin_case(12, nyears=6, extra=6)
+    out, params = chow_lin(quarterly("S", 2000, i), annual("S", years, bench), rho=rho)
+    b0, b1 = params[["beta_constant", "beta_indicator"]].to_numpy()[0]
+    u = out["value"].to_numpy() - (b0 + b1 * i)
+    np.testing.assert_allclose(out["regression"], b0 + b1 * i, rtol=1e-12)
+    k = np.arange(1, 7)
+    np.testing.assert_allclose(u[24:], rho**k * u[23], rtol=1e-9, atol=1e-9 * np.abs(out["value"]).max())
+    assert abs(u[23]) > 1e-3  # a residual to carry
+
+
+def test_chow_lin_held_years_are_met_but_not_regressed():
+    """``held`` years (the pipeline's join years before the first benchmark) bind the result
+    but are not observations: beta and the log-likelihood are those of the benchmarks alone,
+    and the result is X b + Sigma C' (C Sigma C')^-1 (A - C X b) with C stacking the benchmark
+    and held rows (Chow & Lin 1971 formulas, dense)."""
+    rho = 0.5
+    i, years, bench = chow_lin_case(13, nyears=7, extra=2)
+    ind = quarterly("S", 2000, i)
+    held = annual("S", [2000], [i[:4].sum()])  # the indicator's own total, index units
+    alone, p_alone = chow_lin(ind, annual("S", years[1:], bench[1:]), rho=rho)
+    out, params = chow_lin(ind, annual("S", years[1:], bench[1:]), rho=rho, held=held)
+    cols = ["beta_constant", "beta_indicator", "loglik", "n_years"]
+    np.testing.assert_allclose(params[cols].to_numpy(float), p_alone[cols].to_numpy(float), rtol=1e-12)
+    b = params[["beta_constant", "beta_indicator"]].to_numpy()[0]
+    T = len(i)
+    X = np.column_stack([np.ones(T), i])
+    C = np.zeros((7, T))
+    for r in range(7):
+        C[r, 4 * r: 4 * r + 4] = 1.0
+    S = rho ** np.abs(np.subtract.outer(np.arange(T), np.arange(T))) / (1 - rho**2)
+    A = np.r_[held["value"], bench[1:]]
+    expected = X @ b + S @ C.T @ np.linalg.solve(C @ S @ C.T, A - C @ X @ b)
+    np.testing.assert_allclose(out["value"], expected, rtol=1e-9)
+    assert out["value"].to_numpy()[:4].sum() == pytest.approx(held["value"].iloc[0], rel=1e-12)
+    with pytest.raises(InputError, match="given twice"):
+        chow_lin(ind, annual("S", years, bench), rho=rho, held=held)
+
+
 # --- properties -------------------------------------------------------------------------------
 
 

@@ -23,8 +23,8 @@ from valvol.methods.chainlink import (
     chain_link,
     compare_chain_linked,
     nonadditivity_residual,
-    rereference,
 )
+from valvol.methods.reference_year import rereference
 
 UK_POSITIVE_AND_GDP = ["B1GQ", "P31_S14", "P3_S15", "P3_S13", "P51G", "P6", "P7"]
 UK_HIERARCHY = Hierarchy.from_mapping(

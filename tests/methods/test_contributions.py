@@ -18,11 +18,13 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import valvol.methods.contributions as vc
+import valvol.methods.index_numbers as index_numbers
 from valvol.errors import ConfigError, InputError
 from valvol.frames import LEVEL_COLUMNS
 from valvol.hierarchy import Hierarchy
 from valvol.methods.chainlink import chain_link
-from valvol.methods.contributions import (
+from valvol.methods.contributions import volume_contributions
+from valvol.methods.index_numbers import (
     chain_index,
     fisher_contribution_weights,
     fisher_contributions,
@@ -31,7 +33,6 @@ from valvol.methods.contributions import (
     index_relatives,
     laspeyres_index,
     paasche_index,
-    volume_contributions,
 )
 
 UK_HIERARCHY = Hierarchy.from_mapping(
@@ -49,6 +50,7 @@ REFERENCE = Path(__file__).resolve().parents[1] / "reference_data"
 
 def test_docstring_examples():
     assert doctest.testmod(vc).failed == 0
+    assert doctest.testmod(index_numbers).failed == 0
 
 
 def test_output_columns_and_horizons():

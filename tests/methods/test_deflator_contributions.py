@@ -11,6 +11,8 @@ External oracles:
 * UK Office for National Statistics, Quarterly National Accounts dataset, release of
   31 March 2023 (tests/reference_data/uk_ons_qna_2023-03-31.csv): published GDP-deflator
   growth (1 decimal, +-0.05), CDIDs of the pct_change_deflator series.
+* The first link (first year without previous-year prices): hand derivation and worked
+  example in docs/derivations/first_link.md (sections 3-5 and 7).
 """
 
 from __future__ import annotations
@@ -22,19 +24,20 @@ import pandas as pd
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from support import make_panel, rows_of, uk_panel, uk_release
+from support import first_link_panel, make_panel, rows_of, uk_panel, uk_release
 
 from valvol.errors import ConfigError, InputError
 from valvol.frames import LEVEL_COLUMNS, period_label
 from valvol.hierarchy import Hierarchy
+from valvol.methods.contributions import volume_contributions
 from valvol.methods.deflator_contributions import (
     CONTRIBUTION_COLUMNS,
     UNIT_DISCREPANCY,
     deflator_contributions,
-    fisher_price_contributions_arrays,
     income_side_contributions,
 )
 from valvol.methods.deflators import deflator_growth, implicit_deflators
+from valvol.methods.index_numbers import fisher_price_contributions_arrays
 
 REFERENCE = Path(__file__).resolve().parents[1] / "reference_data"
 ONE_DECIMAL = 0.05 + 1e-9
@@ -180,6 +183,78 @@ def test_uk_import_contribution_sign(uk):
     assert (p7["contribution_pp"] < 0).all()
 
 
+@pytest.mark.parametrize("horizon", ["prev_period", "prev_year"])
+def test_uk_first_link_exists_and_adds_up_to_published_growth(uk, horizon):
+    """ONS QNA 31 Mar 2023: 1995, the release's first year, has no previous-year prices. The
+    GDP contributions now start where the volume contributions start (1995-Q2 within 1995,
+    1996 and 1996-Q1 across its end, docs/derivations/first_link.md sections 3-5), and add up
+    to the published GDP-deflator growth (pct_change_deflator_*, 1 decimal, +-0.05) and
+    exactly to that of the implicit deflator CP/CVM of the release, whose 1995 quarterly
+    deflators are kept as published."""
+    d, lv = uk
+    hier = Hierarchy.default()
+    out = deflator_contributions(lv, hierarchy=hier)
+    gdp = out[(out["aggregate"] == "B1GQ") & (out["horizon"] == horizon)]
+    vol = volume_contributions(lv, hierarchy=hier)
+    vol = vol[(vol["aggregate"] == "B1GQ") & (vol["horizon"] == horizon)]
+    assert set(zip(vol["period"], vol["item"], strict=True)) == set(zip(gdp["period"], gdp["item"], strict=True))
+    first = ["1995-Q2", "1995-Q3", "1995-Q4", "1996", "1996-Q1"] if horizon == "prev_period" else ["1996", "1996-Q1"]
+    assert set(first) <= set(gdp["period"])
+    early = gdp[gdp["period"].str[:4].isin(["1995", "1996"])]
+    total = early.groupby("period").agg(total=("contribution_pp", "sum"), growth=("aggregate_growth_pct", "first"))
+    implicit = deflator_growth(implicit_deflators(lv, hierarchy=hier)).query("item == 'B1GQ' and horizon == @horizon")
+    m = total.join(implicit.set_index("period")["pct"], how="inner")
+    assert len(m) == len(total) == (8 if horizon == "prev_period" else 5)
+    np.testing.assert_allclose(m["total"], m["pct"], atol=1e-9)
+    np.testing.assert_allclose(m["growth"], m["pct"], atol=1e-12)
+    pub = d[(d["item"] == "B1GQ") & (d["measure"] == f"pct_change_deflator_{horizon}")].set_index("period")["value"]
+    both = total.join(pub, how="inner")
+    assert len(both) == len(total) - (1 if horizon == "prev_year" else 0)  # no annual y/y series is published
+    assert (both["total"] - both["value"]).abs().max() <= ONE_DECIMAL
+    # aggregates without chain-linked volumes in the release (P3, P5): only the annual first link
+    p3 = out[(out["aggregate"] == "P3") & out["period"].str.startswith(("1995", "1996-Q1"))]
+    assert p3.empty
+    assert {"1996"} <= set(out.loc[out["aggregate"] == "P3", "period"])
+
+
+def test_first_link_worked_example():
+    """docs/derivations/first_link.md, section 7: contributions to GDP (Z = DD + X - M) of the
+    hand-worked example, first year 2000 without previous-year prices (pp, hand values)."""
+    out = deflator_contributions(first_link_panel(), hierarchy=Hierarchy.from_mapping({"B1GQ": ["P3_P5", "P6", "-P7"]}))
+    ctr = out.pivot_table(index=["period", "horizon"], columns="item", values="contribution_pp")
+    expect = {
+        ("2001", "prev_year"): (2.0, 5.0, -2.0, 5.0),  # case A
+        ("2001", "prev_period"): (2.0, 5.0, -2.0, 5.0),
+        ("2001-Q1", "prev_period"): (-0.04, 3.9, -0.96, 2.9),  # case B, across the end of 2000
+        ("2001-Q1", "prev_year"): (2.0, 5.0, -2.0, 5.0),  # case B, year on year
+        ("2001-Q2", "prev_year"): (6.08, 7.2, -4.08, 9.2),
+        ("2001-Q3", "prev_year"): (-0.04, 3.9, -0.96, 2.9),
+        ("2001-Q4", "prev_year"): (-0.04, 3.9, -0.96, 2.9),
+        ("2000-Q2", "prev_period"): (-400 / 104, -200 / 104, 200 / 104, 100 * (50 / 52 - 1)),  # case C
+        ("2000-Q3", "prev_period"): (600 / 98, 300 / 98, -300 / 98, 100 * (52 / 49 - 1)),
+        ("2000-Q4", "prev_period"): (0.0, 0.0, 0.0, 0.0),
+    } | {(f"2001-Q{s}", "prev_period"): (0.0, 0.0, 0.0, 0.0) for s in (2, 3, 4)}
+    assert set(ctr.index) == set(expect)
+    growth = out.groupby(["period", "horizon"])["aggregate_growth_pct"].first()
+    for key, (dd, x, m, g) in expect.items():
+        np.testing.assert_allclose(ctr.loc[key, ["P3_P5", "P6", "P7"]].to_numpy(float), [dd, x, m], atol=1e-9)
+        assert growth[key] == pytest.approx(g, abs=1e-9)
+    assert out["residual_pp"].abs().max() < 1e-9
+
+
+def test_first_link_without_chain_linked_volumes():
+    """docs/derivations/first_link.md, sections 2 and 4: without chain-linked values the first
+    year's quarterly deflators are not given, so only the annual first link (which needs the
+    second year alone) and the quarters within 2001 remain; the annual values are unchanged."""
+    lv = first_link_panel()
+    hier = Hierarchy.from_mapping({"B1GQ": ["P3_P5", "P6", "-P7"]})
+    out = deflator_contributions(lv[lv["price_basis"] != "chain_linked"], hierarchy=hier)
+    keys = set(zip(out["period"], out["horizon"], strict=True))
+    assert keys == {("2001", "prev_period"), ("2001", "prev_year")} | {(f"2001-Q{s}", "prev_period") for s in (2, 3, 4)}
+    a = out[(out["period"] == "2001") & (out["horizon"] == "prev_year")].set_index("item")["contribution_pp"]
+    np.testing.assert_allclose(a[["P3_P5", "P6", "P7"]].to_numpy(float), [2.0, 5.0, -2.0], atol=1e-12)
+
+
 # --- properties and hand checks --------------------------------------------------------------
 
 
@@ -261,6 +336,12 @@ def test_errors_convention_missing_component_non_positive_aggregate():
     with pytest.raises(InputError) as err:
         deflator_contributions(neg, hierarchy=hier)
     assert [(p.item, p.period, p.price_basis) for p in err.value.problems] == [("P3", "2001", "current")]
+    neg = lv.copy()
+    neg.loc[(neg["item"] == "B1GQ") & (neg["period"] == "2000-Q1") & (neg["price_basis"] == "chain_linked"),
+            "value"] = 0.0
+    with pytest.raises(InputError) as err:  # it values the first year's quarters (first_link.md)
+        deflator_contributions(neg, hierarchy=hier)
+    assert [(p.item, p.period, p.price_basis) for p in err.value.problems] == [("B1GQ", "2000-Q1", "chain_linked")]
 
 
 def test_component_absent_from_an_economy_is_skipped():

@@ -19,7 +19,8 @@ from support import uk_release
 from valvol.errors import InputError
 from valvol.frames import LEVEL_COLUMNS, period_label
 from valvol.hierarchy import Hierarchy
-from valvol.methods.deflators import deflator_growth, implicit_deflators, pivot_bases
+from valvol.methods.deflators import deflator_growth, implicit_deflators
+from valvol.methods.panel import pivot_bases
 
 ONE_DECIMAL = 0.05 + 1e-9
 HIER = Hierarchy.default()

@@ -4,7 +4,8 @@ External oracle: UK Office for National Statistics, Quarterly National Accounts 
 release of 31 March 2023 (tests/reference_data/uk_ons_qna_2023-03-31.csv, provenance in
 tests/reference_data/README.md): published deflator growth of households' consumption, GDP,
 exports and imports (1 decimal each). The other checks are properties [DERIVED] of
-METHODS.md sections 5 and 6 (ESA 95 paras 10.57-10.59).
+METHODS.md sections 5 and 6 (ESA 95 paras 10.57-10.59), and the hand-worked first-link
+example of docs/derivations/first_link.md (sections 6 and 7).
 """
 
 from __future__ import annotations
@@ -14,12 +15,13 @@ import pandas as pd
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from support import make_panel, uk_panel, uk_release
+from support import first_link_panel, make_panel, rows_of, uk_panel, uk_release
 
 from valvol.errors import ConfigError, InputError
 from valvol.hierarchy import Hierarchy
 from valvol.methods.deflators import deflator_growth, implicit_deflators
-from valvol.methods.price_gaps import MEASURE_COLUMNS, NUMERAIRES, price_gaps
+from valvol.methods.panel import pivot_bases
+from valvol.methods.price_gaps import MEASURE_COLUMNS, NUMERAIRES, _series, price_gaps
 
 GAP_MEASURES = ["gap_gdp_vs_domestic_demand", "gap_export_price_part", "gap_import_price_part", "gap_other_part"]
 
@@ -151,6 +153,13 @@ def test_numeraire_and_reference_year_errors():
     assert len(price_gaps(off, hierarchy=HIER, numeraire="domestic_final_demand", reference_year=2001))
     with pytest.raises(InputError):
         price_gaps(lv, hierarchy=HIER, reference_year=1990)
+    # household chain-linked volumes now value the first year's quarters: they must be positive
+    neg = lv.copy()
+    neg.loc[(neg["item"] == "P31_S14") & (neg["period"] == "2000-Q2") & (neg["price_basis"] == "chain_linked"),
+            "value"] = -1.0
+    with pytest.raises(InputError) as err:
+        price_gaps(neg, hierarchy=HIER)
+    assert [(p.item, p.period, p.price_basis) for p in err.value.problems] == [("P31_S14", "2000-Q2", "chain_linked")]
 
 
 # --- growth gaps ---------------------------------------------------------------------------
@@ -196,6 +205,59 @@ def test_gap_annual_k_share_formula_and_derived_domestic_demand():
     pd.testing.assert_frame_equal(filled[GAP_MEASURES], g[GAP_MEASURES], rtol=1e-10, atol=1e-10)
 
 
+def test_first_link_worked_example_gaps():
+    """docs/derivations/first_link.md, section 7: growth gaps of the hand-worked example (pp),
+    first year 2000 without previous-year prices, chain-linked volumes given."""
+    out = price_gaps(first_link_panel(), hierarchy=Hierarchy.from_mapping({"B1GQ": ["P3_P5", "P6", "-P7"]}))
+    g = wide(out[out["horizon"] != ""])
+    cols = ["gap_gdp_vs_domestic_demand", "gap_export_price_part", "gap_import_price_part", "gap_other_part",
+            "gap_household_vs_gdp"]
+    expect = {
+        ("2001", "prev_year"): (3.0, 4.0, -1.0, 0.0, -3.0),
+        ("2001", "prev_period"): (3.0, 4.0, -1.0, 0.0, -3.0),
+        ("2001-Q1", "prev_period"): (2.94, 4.97, -2.03, 0.0, -0.9),
+        ("2001-Q1", "prev_year"): (0.96, 3.03, -2.07, 0.0, -3.0),
+        ("2001-Q2", "prev_year"): (5.16, 3.03, 2.13, 0.0, -7.2),
+        ("2000-Q2", "prev_period"): (-400 / 104, -400 / 10608, -40400 / 10608, 0.0, 400 / 104),
+    }
+    for key, values in expect.items():
+        np.testing.assert_allclose(g.loc[key, cols].to_numpy(float), values, atol=1e-9)
+    assert len(g) == 3 + 2 + 4 * 2  # 2000-Q2..Q4, 2001 (both labels), 2001 quarters (both horizons)
+    no_chain = first_link_panel().query("price_basis != 'chain_linked'")
+    out = price_gaps(no_chain, hierarchy=Hierarchy.from_mapping({"B1GQ": ["P3_P5", "P6", "-P7"]}))
+    g = wide(out[out["horizon"] != ""])
+    assert set(g.index) == {("2001", "prev_period"), ("2001", "prev_year")} | {
+        (f"2001-Q{s}", "prev_period") for s in (2, 3, 4)}
+    np.testing.assert_allclose(g.loc[("2001", "prev_year"), cols].to_numpy(float), expect["2001", "prev_year"],
+                               atol=1e-9)
+
+
+def test_series_fills_an_aggregate_from_parts_at_every_depth():
+    """Hand sums: DD = P3 + P5 with P3 = P31_S14 + P3_S13 and P5 = P51G + P52; the panel lacks DD.
+    A part's own value is used where given, else the sum of its parts, per price basis: 2000
+    P3 has its own current value (30, not 1 + 1) and its previous-year value from its parts
+    (0.5 + 0.5); 2001 lacks P3 (15 and 7.5 from its parts) and P5 at previous-year prices
+    (1.5 + 0.5, its own current value 7 kept); 2002 lacks P3 and P5, and P52 at previous-year
+    prices, so DD has a current value (5 + 5) and no previous-year one. v is never summed."""
+    hier = Hierarchy.from_mapping({"P3": ["P31_S14", "P3_S13"], "P5": ["P51G", "P52"]})
+    vals = {("P31_S14", 2000): 1.0, ("P3_S13", 2000): 1.0, ("P3", 2000): 30.0, ("P5", 2000): 4.0,
+            ("P31_S14", 2001): 10.0, ("P3_S13", 2001): 5.0, ("P5", 2001): 7.0, ("P51G", 2001): 3.0,
+            ("P52", 2001): 1.0, ("P31_S14", 2002): 2.0, ("P3_S13", 2002): 3.0, ("P51G", 2002): 6.0,
+            ("P52", 2002): -1.0}
+    rows = []
+    for (item, year), v in vals.items():
+        rows.append(rows_of("XX", item, "current", "A", [year], [0], [v]))
+        if (item, year) not in {("P52", 2002), ("P3", 2000), ("P5", 2001)}:
+            rows.append(rows_of("XX", item, "previous_year", "A", [year], [0], [v / 2]))
+        rows.append(rows_of("XX", item, "chain_linked", "A", [year], [0], [abs(v)]))
+    lv = pd.concat(rows, ignore_index=True)
+    lv["period"] = lv["year"].astype(str)
+    got = _series(pivot_bases(lv), hier, "P3_P5", (("P3", 1), ("P5", 1))).set_index("year")
+    np.testing.assert_allclose(got["c"].to_numpy(), [30.0 + 4.0, 15.0 + 7.0, 5.0 + 5.0])
+    np.testing.assert_allclose(got["k"].to_numpy(), [1.0 + 2.0, 7.5 + 2.0, np.nan])
+    assert got["v"].isna().all()
+
+
 # --- UK release ----------------------------------------------------------------------------
 
 
@@ -227,6 +289,16 @@ def test_uk_household_vs_gdp_gap_matches_published_growth(uk, horizon):
     m = pd.concat([gap, pub], axis=1, join="inner", keys=["ours", "pub"])
     assert len(m) >= 100
     assert (m["ours"] - m["pub"]).abs().max() <= 0.1 + 1e-9
+    # the first link (docs/derivations/first_link.md, sections 3-6): 1995 has no previous-year
+    # prices; household and GDP have chain-linked volumes there, so the gap exists from 1995-Q2
+    first = ["1995-Q2", "1995-Q3", "1995-Q4", "1996", "1996-Q1"] if horizon == "prev_period" else ["1996", "1996-Q1"]
+    assert set(first) <= set(gap.index)
+    # the release publishes household deflator growth from 1997 on: the first links are checked
+    # against the growth of its implicit deflators CP/CVM instead (exact)
+    _, lv, _ = uk
+    growth = deflator_growth(implicit_deflators(lv, hierarchy=Hierarchy.default())).query("horizon == @horizon")
+    growth = growth.pivot_table(index="period", columns="item", values="pct")
+    np.testing.assert_allclose(gap.loc[first], (growth["P31_S14"] - growth["B1GQ"]).loc[first], atol=1e-9)
 
 
 def test_uk_terms_of_trade_and_gap_split(uk):
@@ -247,6 +319,10 @@ def test_uk_terms_of_trade_and_gap_split(uk):
     g = wide(out[out["measure"].isin(GAP_MEASURES)])
     split = g["gap_export_price_part"] + g["gap_import_price_part"] + g["gap_other_part"]
     np.testing.assert_allclose(split, g["gap_gdp_vs_domestic_demand"], atol=1e-9)
+    # domestic demand is summed from P3 + P5 here (no chain-linked volumes): of the first links
+    # only the annual one of 1996 is formed (docs/derivations/first_link.md, section 6)
+    first = g.loc[[i for i in g.index if i[0].startswith(("1995", "1996-Q1"))]]
+    assert first.empty and ("1996", "prev_year") in g.index
     trade = tot.merge(out[out["measure"] == "trading_gain"], on="period")
     assert len(trade) == 140
 

@@ -222,6 +222,36 @@ def test_annual_part_is_univariate_denton_and_identity_labels():
     assert np.abs(res.report["adjustment_annual"]).max() <= 1e-9 * res.report["before"].abs().max()
 
 
+def test_a_year_without_benchmarks_is_bound_only_by_the_identities():
+    """Two benchmarked years and a third (2012) without benchmarks. With the total equal to the
+    signed sum of the components benchmarked one by one (Denton 1971 / Cholette 1984, which keep
+    each BI ratio flat past 2011-Q4), that solution meets every constraint and minimises each
+    series' part of the separable objective, so it is the result: each component's 2012 ratio
+    stays at its 2011-Q4 value (derived from the objective; IMF QNA 2017 ch. 6, 6.5.A). Feeding
+    2012 its own sums as benchmarks instead makes the year inconsistent with the total. With
+    the true total, 2012 meets the identities and no annual row exists for it."""
+    s = make_system(9, years=2, extra=4)
+    uni = wide(denton(s["comp"], s["annual"]), s["names"])
+    r = uni / s["z"]
+    np.testing.assert_allclose(r[:, 8:], np.repeat(r[:, [7]], 4, axis=1), rtol=1e-9)  # univariate extrapolation
+    t = s["total"].assign(value=(s["sg"][:, None] * uni).sum(0))
+    res = reconcile(s["comp"], s["signs"], t, s["annual"])
+    x = wide(res.components, s["names"])
+    np.testing.assert_allclose(x[:, 8:] / s["z"][:, 8:], np.repeat(r[:, [7]], 4, axis=1), rtol=1e-9)
+    rep = res.report[res.report["year"] == 2012]
+    assert (rep["constraint"].isin(["annual benchmarks (extrapolated)", "none"])).all()
+    own = s["comp"][s["comp"]["year"] == 2012].groupby("series", as_index=False)["value"].sum().assign(year=2012)
+    with pytest.raises(InputError, match="inconsistent"):
+        reconcile(s["comp"], s["signs"], t, pd.concat([s["annual"], own[["series", "year", "value"]]]))
+    res = reconcile(s["comp"], s["signs"], s["total"], s["annual"])
+    x = wide(res.components, s["names"])
+    np.testing.assert_allclose((s["sg"][:, None] * x).sum(0), s["total"]["value"], rtol=1e-9)
+    assert 2012 not in set(res.annual_residuals["year"])
+    assert np.abs(x[:, 8:].sum(1) - s["z"][:, 8:].sum(1)).max() > 1.0  # not held to their own sums
+    labels = res.report.loc[res.report["year"] == 2012, "constraint"]
+    assert labels.str.match(r"^(annual benchmarks \(extrapolated\)|quarterly identity 2012-Q[1-4])$").all()
+
+
 # --- degenerate cases -------------------------------------------------------------------------
 
 

@@ -29,10 +29,10 @@ from hypothesis import strategies as st
 from scipy import stats
 
 from valvol.errors import ConfigError, InputError
+from valvol.methods.reference_year import reference_years
 from valvol.methods.revisions import (
     kth_estimates,
     reference_year_changes,
-    reference_years,
     revision_summary,
     revision_triangle,
     revisions,

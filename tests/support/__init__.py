@@ -68,6 +68,37 @@ def make_panel(prices, quantities, spec=(), *, first_year=2000, ref_year=2000, e
     return lv[LEVEL_COLUMNS]
 
 
+#: Worked example of docs/derivations/first_link.md, section 7: year 2000 (first year, no
+#: previous-year values; current and chain-linked quarters) and 2001 (every quarter alike).
+FIRST_LINK_2000 = {"P3_P5": ([100.0] * 4, [51.0, 51.0, 49.0, 49.0]), "P6": ([50.0] * 4, [25.0] * 4),
+                   "P7": ([50.0] * 4, [26.0, 24.0, 25.0, 25.0]), "B1GQ": ([100.0] * 4, [50.0, 52.0, 49.0, 49.0]),
+                   "P31_S14": ([60.0] * 4, [30.0] * 4)}
+FIRST_LINK_2001 = {"P3_P5": (102.0, 100.0), "P6": (55.0, 50.0), "P7": (52.0, 50.0), "B1GQ": (105.0, 100.0),
+                   "P31_S14": (61.2, 60.0)}
+
+
+def first_link_panel(economy="XX"):
+    """The levels panel of docs/derivations/first_link.md, section 7 (quarters and years).
+
+    2001 at current and previous-year prices, c and k per quarter; its chain-linked volumes
+    by annual overlap, CLV = k CLV_2000 / C_2000 (= k/2); annual values the sums of quarters.
+    """
+    q = np.arange(1, 5)
+    out = []
+    for item, (c, v) in FIRST_LINK_2000.items():
+        out += [rows_of(economy, item, "current", "Q", [2000] * 4, q, c),
+                rows_of(economy, item, "chain_linked", "Q", [2000] * 4, q, v),
+                rows_of(economy, item, "current", "A", [2000], [0], [sum(c)]),
+                rows_of(economy, item, "chain_linked", "A", [2000], [0], [sum(v)])]
+        c1, k1 = FIRST_LINK_2001[item]
+        for basis, x in (("current", c1), ("previous_year", k1), ("chain_linked", k1 * sum(v) / sum(c))):
+            out += [rows_of(economy, item, basis, "Q", [2001] * 4, q, [x] * 4),
+                    rows_of(economy, item, basis, "A", [2001], [0], [4 * x])]
+    lv = pd.concat(out, ignore_index=True)
+    lv["period"] = period_label(lv["year"], lv["quarter"]).to_numpy()
+    return lv[LEVEL_COLUMNS]
+
+
 def uk_release() -> pd.DataFrame:
     """The UK release as stored, with year, quarter and frequency columns."""
     d = pd.read_csv(UK_FILE, dtype={"period": str})

@@ -6,19 +6,27 @@ relative to the folder) and ``source_row`` (the line number in a CSV file,
 header = line 1; the 1-based row number in a parquet file). Adding a format is
 adding a function to `READERS`.
 
-Whatever a file holds, reading it never raises: a file that cannot be decoded or
-parsed, a header with missing, unknown or repeated columns, a line with too many or
-too few cells, a file without data rows: each is a located `Problem`.
+Agencies ship extra columns (an observation status ``obs_status``, a confidentiality
+flag ``conf_status``, ...). Those declared in ``carry_columns`` of ``valvol.toml`` are
+kept as text, after the raw columns (empty in a file that lacks them); any other
+column is dropped with a warning on the ``valvol`` logger naming the file and the
+columns.
+
+Whatever a file holds, reading it never raises: a file that cannot be decoded (CSV files
+are UTF-8, `valvol.io.text`) or parsed, a header with missing or repeated columns, a line
+with too many or too few cells, a file without data rows: each is a located `Problem`.
 """
 
 from __future__ import annotations
 
 import csv
 import io
+import logging
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Iterable
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
 import pyarrow.parquet as pq
 
@@ -28,6 +36,8 @@ from valvol.io.text import NotUTF8, decode_utf8
 REQUIRED = ("economy", "period", "item", "price_basis", "value")
 OPTIONAL = ("adjustment", "unit")
 RAW_COLUMNS = ["source_file", "source_row", *REQUIRED, *OPTIONAL]
+
+log = logging.getLogger("valvol")
 
 #: A reader: (path, name shown in problems) -> text frame of the file's columns plus ``source_row``
 #: (None when the file cannot be read at all), and the problems met.
@@ -44,7 +54,45 @@ def _read_csv(path: Path, name: str) -> tuple[pd.DataFrame | None, list[Problem]
         text = decode_utf8(path.read_bytes())
     except NotUTF8 as exc:
         return None, [Problem(file=name, row=exc.line, reason=exc.reason)]
-    # keep every cell as text: numbers are parsed later, where a bad one can be located
+    fast = _plain_csv(text)
+    if fast is not None:
+        return fast, []
+    return _quoted_csv(text, name)
+
+
+def _plain_csv(text: str) -> pd.DataFrame | None:
+    """The common file, read by pandas' C parser: no quotes, one record per line, every line
+    with as many cells as the header. None for any other file (`_quoted_csv` reads it and
+    names the lines at fault)."""
+    text = text.replace("\r\n", "\n")
+    if any(c in text for c in '"\r\0'):
+        return None
+    lines = text.split("\n")
+    if lines and lines[-1] == "":
+        lines.pop()
+    if not lines or not lines[0].strip(" \t,"):
+        return None  # an empty file or a blank first line
+    header = next(csv.reader([lines[0]], skipinitialspace=True))
+    cells = np.fromiter((line.count(",") for line in lines), dtype="int64", count=len(lines))
+    if (cells != len(header) - 1).any() or len(lines) == 1:
+        return None
+    df = pd.read_csv(io.StringIO(text), header=None, skiprows=1, names=list(range(len(header))), dtype=str,
+                     keep_default_na=False, na_filter=False, skipinitialspace=True, skip_blank_lines=False,
+                     engine="c")
+    if len(df) != len(lines) - 1:
+        return None
+    df.columns = header
+    df.insert(0, "source_row", np.arange(2, 2 + len(df), dtype="int64"))
+    empty = np.ones(len(df), dtype=bool)
+    for i in range(len(header)):
+        empty &= df.iloc[:, i + 1].str.strip().eq("").to_numpy()
+    return df[~empty].reset_index(drop=True) if empty.any() else df
+
+
+def _quoted_csv(text: str, name: str) -> tuple[pd.DataFrame | None, list[Problem]]:
+    """Any CSV text, record by record with the standard library's reader (quoted cells, cells
+    spanning lines, lines of the wrong length); keep every cell as text: numbers are parsed
+    later, where a bad one can be located."""
     reader = csv.reader(io.StringIO(text, newline=""), skipinitialspace=True, strict=True)
     header: list[str] | None = None
     records: list[list[str]] = []
@@ -73,7 +121,9 @@ def _read_csv(path: Path, name: str) -> tuple[pd.DataFrame | None, list[Problem]
                                                                                          f"{reason}")]
     if header is None:
         return None, [Problem(file=name, reason="empty file: no header line and no data rows")]
-    df = pd.DataFrame(records, columns=header, dtype="str") if records else pd.DataFrame(columns=header, dtype="str")
+    df = pd.DataFrame(records, columns=range(len(header)), dtype="str") if records else \
+        pd.DataFrame(columns=range(len(header)), dtype="str")
+    df.columns = header
     df.insert(0, "source_row", pd.array(lines, dtype="int64"))
     return df, problems
 
@@ -89,7 +139,7 @@ def _read_parquet(path: Path, name: str) -> tuple[pd.DataFrame | None, list[Prob
         df = pq.read_table(path).to_pandas()
     except Exception as exc:  # noqa: BLE001 - any failure of the parquet library on these bytes is the file's
         detail = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
-        return None, [Problem(file=name, reason=f"cannot be read as parquet: {detail}")]
+        return None, [Problem(file=name, reason=f"cannot be read as parquet: {clip(detail, 300)}")]
     # the same text shape as CSV; numbers keep their full precision through repr()
     text = pd.DataFrame({c: df[c].map(_cell).astype("str") for c in df}, index=df.index)
     text.insert(0, "source_row", pd.RangeIndex(1, 1 + len(df)).astype("int64"))
@@ -111,15 +161,19 @@ READERS: dict[str, Reader] = {
 
 
 def account_files(accounts_dir: Path) -> list[Path]:
-    """The data files of a folder (not recursive), sorted by name."""
+    """The data files of an accounts folder, in a stable order."""
     return sorted(p for p in accounts_dir.iterdir() if p.is_file() and p.suffix.lower() in READERS)
 
 
-def read_file(path: Path, name: str) -> tuple[pd.DataFrame | None, list[Problem]]:
-    """One accounts-format file as a raw frame (`RAW_COLUMNS`, text but ``source_row``), or None.
+def read_file(path: Path, name: str,
+              carry_columns: Iterable[str] = ()) -> tuple[pd.DataFrame | None, list[Problem]]:
+    """One accounts-format file as a raw frame (`RAW_COLUMNS` plus the carried columns, text but
+    ``source_row``), or None when it cannot be used, and the problems met.
 
-    ``name`` is how problems name the file (its path relative to the accounts folder).
+    ``name`` is how problems name the file (its path relative to the accounts folder). Columns
+    neither read nor carried are dropped with a warning.
     """
+    carry = tuple(carry_columns)
     try:
         df, problems = READERS[path.suffix.lower()](path, name)
     except OSError as exc:
@@ -129,10 +183,10 @@ def read_file(path: Path, name: str) -> tuple[pd.DataFrame | None, list[Problem]
     columns = [str(c).strip().lower() for c in df.columns]
     df.columns = columns
     header = columns[1:]  # after source_row
+    used = (*REQUIRED, *OPTIONAL, *carry)
     row = 1 if path.suffix.lower() == ".csv" else None
-    repeated = sorted({c for c in header if header.count(c) > 1})
+    repeated = sorted({c for c in header if c in used and header.count(c) > 1})
     missing = [c for c in REQUIRED if c not in header]
-    extra = [c for c in header if c not in REQUIRED + OPTIONAL]
     if repeated:
         return None, [*problems, Problem(file=name, row=row, reason=f"column(s) {', '.join(clip(c) for c in repeated)} "
                                          "appear more than once in the header")]
@@ -141,44 +195,51 @@ def read_file(path: Path, name: str) -> tuple[pd.DataFrame | None, list[Problem]
         if len(header) == 1 and (sep := next((s for s in ";\t|" if s in header[0]), None)):
             hint = f"; the columns seem separated by {sep!r}: valvol reads comma-separated files"
         return None, [*problems, Problem(file=name, row=row, reason=f"missing column(s) {', '.join(missing)}{hint}")]
+    extra = list(dict.fromkeys(c for c in header if c not in used))
     if extra:
-        return None, [*problems, Problem(
-            file=name, row=row, reason=f"unknown column(s) {', '.join(clip(c) for c in extra)}; allowed: "
-                                       f"{', '.join(REQUIRED + OPTIONAL)}")]
+        shown = ", ".join(clip(c) if c else "(unnamed)" for c in extra[:20]) + (", ..." if len(extra) > 20 else "")
+        log.warning("%s: unknown column(s) %s dropped (declare them in carry_columns of valvol.toml to keep "
+                    "them)", clip(name, 200), shown)
+        df = df.iloc[:, [0] + [i + 1 for i, c in enumerate(header) if c in used]]
     if df.empty and not problems:
-        return None, [Problem(file=name, reason="a header but no data rows" if row else "no data rows")]
-    for col in OPTIONAL:
+        return None, [Problem(file=name, row=row, reason="a header but no data rows" if row else "no data rows")]
+    for col in (*OPTIONAL, *carry):
         if col not in df.columns:
             df[col] = ""
-    for col in REQUIRED + OPTIONAL:
+    for col in used:
         df[col] = df[col].astype("str").str.strip()
     df.insert(0, "source_file", name)
-    return df[RAW_COLUMNS], problems
+    return df[[*RAW_COLUMNS, *carry]], problems
 
 
-def read_accounts(accounts_dir: str | Path) -> tuple[pd.DataFrame, list[Problem]]:
+def read_accounts(accounts_dir: str | Path,
+                  carry_columns: Iterable[str] = ()) -> tuple[pd.DataFrame, list[Problem]]:
     """Read every data file of ``accounts_dir`` into one raw frame.
 
-    Returns the frame (columns `RAW_COLUMNS`, all text but ``source_row``) and
-    the problems met while reading (unreadable file, bad header or line, no file).
+    ``carry_columns``: extra columns kept as text (``carry_columns`` of the configuration).
+
+    Returns the frame (columns `RAW_COLUMNS` plus the carried columns, all text but
+    ``source_row``) and the problems met while reading (unreadable file, bad header or line,
+    no file). Other unknown columns are dropped with a logged warning, not a problem.
     """
     folder = Path(accounts_dir)
+    carry = tuple(carry_columns)
     problems: list[Problem] = []
     if not folder.is_dir():
-        return _empty(), [Problem(file=str(folder), reason="accounts folder does not exist")]
+        return _empty(carry), [Problem(file=str(folder), reason="accounts folder does not exist")]
     files = account_files(folder)
     if not files:
-        return _empty(), [Problem(file=str(folder), reason="no .csv or .parquet file in the accounts folder")]
+        return _empty(carry), [Problem(file=str(folder), reason="no .csv or .parquet file in the accounts folder")]
     frames = []
     for path in files:
-        df, found_here = read_file(path, path.name)
+        df, found_here = read_file(path, path.name, carry)
         problems += found_here
         if df is not None:
             frames.append(df)
     if not frames:
-        return _empty(), problems
+        return _empty(carry), problems
     return pd.concat(frames, ignore_index=True), problems
 
 
-def _empty() -> pd.DataFrame:
-    return pd.DataFrame({c: pd.Series(dtype="int64" if c == "source_row" else "str") for c in RAW_COLUMNS})
+def _empty(carry: tuple[str, ...]) -> pd.DataFrame:
+    return pd.DataFrame({c: pd.Series(dtype="int64" if c == "source_row" else "str") for c in [*RAW_COLUMNS, *carry]})

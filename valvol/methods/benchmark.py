@@ -112,13 +112,6 @@ def ar1_precision(lengths: np.ndarray, rho: np.ndarray) -> sp.csr_matrix:
     return _tridiagonal(diag, off)
 
 
-def period_labels(year: np.ndarray, quarter: np.ndarray) -> np.ndarray:
-    """``YYYY-Qn`` labels of many quarters (labels formed once per distinct quarter)."""
-    t = np.asarray(year, dtype="int64") * 4 + np.asarray(quarter, dtype="int64") - 1
-    u, inv = np.unique(t, return_inverse=True)
-    return period_label(u // 4, u % 4 + 1).to_numpy(dtype=object)[inv]
-
-
 def solve_kkt(gram: sp.spmatrix, cons: sp.spmatrix, rhs: np.ndarray, *, banded: bool = False) -> np.ndarray:
     """Solve min w'Gw s.t. Cw = rhs through the sparse system [[G, C'], [C, 0]] [w; l] = [0; rhs].
 
@@ -232,7 +225,7 @@ def _arrange(indicator: pd.DataFrame, benchmarks: pd.DataFrame, by: list[str], y
     n = len(ind)
     problems: list[Problem] = []
     if "period" not in ind.columns:
-        ind["period"] = period_labels(year, quarter)
+        ind["period"] = period_label(year, quarter).to_numpy()
     starts = np.flatnonzero(new)
     lengths = np.diff(np.r_[starts, n])
     keys = ind.loc[starts, by].reset_index(drop=True)
@@ -480,7 +473,7 @@ def _estimate_rho(lay: _AnnualLayout, lo: float, hi: float, step: float) -> tupl
 def chow_lin(indicator: pd.DataFrame, benchmarks: pd.DataFrame, *, rho: float | None = None,
              year_from_quarters: str = "total", constant: bool = True, by: str | Sequence[str] = "series",
              rho_bounds: tuple[float, float] = (-0.99, 0.99), grid_step: float = 0.05,
-             ) -> tuple[pd.DataFrame, pd.DataFrame]:
+             held: pd.DataFrame | None = None) -> tuple[pd.DataFrame, pd.DataFrame]:
     """Chow-Lin temporal disaggregation: regression on the indicator with AR(1) errors.
 
     Parameters
@@ -496,6 +489,12 @@ def chow_lin(indicator: pd.DataFrame, benchmarks: pd.DataFrame, *, rho: float | 
         Search interval for rho (common practice: a little inside (-1, 1)).
     grid_step
         Step of the grid that brackets the maximum before a golden-section refinement.
+    held
+        Optional annual values (columns as ``benchmarks``, other years) that the result must
+        also meet but that are not observations of the regression: beta and rho come from
+        ``benchmarks`` alone. The pipeline passes the years before the first benchmark that
+        keep the total of their own quarters (the join to quarters that do not move); taking
+        them as observations would regress the benchmarks on the indicator's own sums.
 
     Returns
     -------
@@ -509,8 +508,9 @@ def chow_lin(indicator: pd.DataFrame, benchmarks: pd.DataFrame, *, rho: float | 
     Raises
     ------
     InputError
-        As `denton`; too few benchmarks for the regression (estimating rho needs more years
-        than coefficients); regressors collinear over the benchmark years.
+        As `denton` (``held`` rows checked as benchmarks, a year in both refused as given
+        twice); too few benchmarks for the regression (estimating rho needs more years than
+        coefficients); regressors collinear over the benchmark years.
     ConfigError
         ``rho`` or ``rho_bounds`` outside (-1, 1), or an unknown ``year_from_quarters``.
 
@@ -525,7 +525,11 @@ def chow_lin(indicator: pd.DataFrame, benchmarks: pd.DataFrame, *, rho: float | 
     - (1/2) ln|V_a|, N the number of benchmark years. Quarters outside the benchmark years
     get X beta plus the residual carried by the AR(1) correlation (decaying as rho^k). At
     rho = 0 (flows), y_hat is the OLS fit on annual data plus each year's residual spread
-    evenly over its quarters.
+    evenly over its quarters. Past the last constrained quarter T the residual is
+    u_{T+k} = rho^k u_T (each column of Sigma C' there is rho^k times its row T), so the
+    result is X beta plus a residual decaying geometrically. With ``held`` years, C stacks
+    the benchmark and the held rows in the residual solve (u then also meets the held
+    totals), while beta and the likelihood use the benchmark rows only.
 
     References
     ----------
@@ -540,31 +544,42 @@ def chow_lin(indicator: pd.DataFrame, benchmarks: pd.DataFrame, *, rho: float | 
     if rho is not None and not -1.0 < float(rho) < 1.0:
         raise ConfigError(f"rho must lie strictly between -1 and 1, not {rho!r}")
     by = key_columns(by)
-    panel = _arrange(indicator, benchmarks, by, year_from_quarters)
+    if held is not None:
+        require_columns(held, by + ["year", "value"], "held")
+    both = benchmarks if held is None or held.empty else pd.concat(
+        [benchmarks[by + ["year", "value"]], held[by + ["year", "value"]]], ignore_index=True)
+    panel = _arrange(indicator, both, by, year_from_quarters)
     x = panel.values
     nseries = len(panel.keys)
     regressors = np.column_stack([np.ones_like(x), x]) if constant else x[:, None]
     k = regressors.shape[1]
-    agg_x = panel.agg @ regressors  # benchmark rows x k
-    bsid = panel.bench["sid"].to_numpy()
-    slot = np.arange(len(bsid)) - np.searchsorted(bsid, bsid)  # rank of the benchmark within its series
+    agg_x_all = panel.agg @ regressors  # constraint rows x k
+    obs = np.ones(len(panel.bench), bool)  # rows that are observations of the regression
+    if both is not benchmarks:
+        held_key = pd.MultiIndex.from_frame(held[by].assign(year=held["year"].astype("int64")))
+        obs = ~pd.MultiIndex.from_frame(panel.bench[by + ["year"]]).isin(held_key)
+    bsid_all = panel.bench["sid"].to_numpy()
+    bsid, agg_x = bsid_all[obs], agg_x_all[obs]
     nobs = np.bincount(bsid, minlength=nseries)
+    need = k + (1 if rho is None else 0)
+    problems = [series_problem(kd, "", f"{n} benchmark year(s): Chow-Lin needs at least {need}")
+                for kd, n in zip(panel.keys.to_dict("records"), nobs, strict=True) if n < need]
+    if problems:
+        raise InputError(problems)
+    slot = np.arange(len(bsid)) - np.searchsorted(bsid, bsid)  # rank of the benchmark within its series
     width = int(nobs.max())
     valid = np.zeros((nseries, width), bool)
     valid[bsid, slot] = True
     years = np.zeros((nseries, width))
-    years[bsid, slot] = panel.bench["year"].to_numpy()
+    years[bsid, slot] = panel.bench["year"].to_numpy()[obs]
     ya = np.zeros((nseries, width))
-    ya[bsid, slot] = panel.bench["value"].to_numpy()
+    ya[bsid, slot] = panel.bench["value"].to_numpy()[obs]
     xa = np.zeros((nseries, width, k))
     xa[bsid, slot] = agg_x
-    need = k + (1 if rho is None else 0)
     rank = np.linalg.matrix_rank(xa)
-    problems = [series_problem(kd, "", f"{n} benchmark year(s): Chow-Lin needs at least {need}")
-                for kd, n in zip(panel.keys.to_dict("records"), nobs, strict=True) if n < need]
-    problems += [series_problem(kd, "", "regressors collinear over the benchmark years (an indicator "
-                                "constant in annual terms with constant=True?)")
-                 for kd, r, n in zip(panel.keys.to_dict("records"), rank, nobs, strict=True) if r < k and n >= need]
+    problems = [series_problem(kd, "", "regressors collinear over the benchmark years (an indicator "
+                               "constant in annual terms with constant=True?)")
+                for kd, r in zip(panel.keys.to_dict("records"), rank, strict=True) if r < k]
     if problems:
         raise InputError(problems)
     lay = _AnnualLayout.build(years, valid, np.asarray(YEAR_FROM_QUARTERS[year_from_quarters]), xa, ya, nobs)
@@ -574,7 +589,7 @@ def chow_lin(indicator: pd.DataFrame, benchmarks: pd.DataFrame, *, rho: float | 
         rhos, at_bound = np.full(nseries, float(rho)), np.zeros(nseries, bool)
     loglik, beta = _profile(rhos, lay)
     fit = (regressors * beta[panel.sid]).sum(axis=1)
-    resid_a = panel.bench["value"].to_numpy() - (agg_x * beta[bsid]).sum(axis=1)
+    resid_a = panel.bench["value"].to_numpy() - (agg_x_all * beta[bsid_all]).sum(axis=1)
     u = solve_kkt(ar1_precision(panel.lengths, rhos[panel.sid]), panel.agg, resid_a, banded=True)
     out = _output(panel, fit + u, regression=fit)
     params = panel.keys.copy()

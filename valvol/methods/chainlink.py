@@ -13,6 +13,8 @@ Panel utilities shared with `valvol.methods.contributions` live in `valvol.metho
 
 from __future__ import annotations
 
+from collections.abc import Mapping
+
 import numpy as np
 import pandas as pd
 
@@ -40,7 +42,7 @@ _WIDE_KEY = ["economy", "item", "frequency", "year", "quarter"]
 
 # ------------------------------------------------------------------------------- chain-linking
 def chain_link(levels: pd.DataFrame, *, hierarchy: Hierarchy, method: str = "annual_overlap",
-               reference_year: int | None = None, annual_rate: bool = False) -> pd.DataFrame:
+               reference_year: int | Mapping[str, int] | None = None, annual_rate: bool = False) -> pd.DataFrame:
     """Chain-linked volumes of every series with values at current and previous-year prices.
 
     Parameters
@@ -53,8 +55,9 @@ def chain_link(levels: pd.DataFrame, *, hierarchy: Hierarchy, method: str = "ann
     method
         ``annual_overlap`` (default), ``one_quarter_overlap`` or ``over_the_year``.
     reference_year
-        Year r whose annual volume equals its current-price value. None: for each economy
-        the latest year with an annual value at current prices (the latest complete year).
+        Year r whose annual volume equals its current-price value: one year for every
+        economy, or a mapping economy -> year. None (or an economy the mapping lacks): the
+        economy's latest year with an annual value at current prices (its latest complete year).
     annual_rate
         Quarterly levels at annual rate (annual value = mean of the quarters, not the sum).
 
@@ -147,11 +150,14 @@ def chain_link(levels: pd.DataFrame, *, hierarchy: Hierarchy, method: str = "ann
     if w.empty:
         return empty_levels()
     w["sc"] = item_flags(w["item"], hierarchy.is_sign_changing)
-    raise_problems(nonpositive_problems(w, hierarchy, {"c": "current", "k": "previous_year"}))
-    if reference_year is not None:
+    raise_problems(nonpositive_problems(w, {"c": "current", "k": "previous_year"}, hierarchy))
+    latest = w.loc[(w["frequency"] == "A") & w["c"].notna()].groupby("economy")["year"].max()
+    if isinstance(reference_year, Mapping | pd.Series):  # one year per economy, latest where absent
+        ref = pd.Series(reference_year, dtype="float64").reindex(latest.index).fillna(latest).astype("int64")
+    elif reference_year is not None:
         ref = pd.Series(int(reference_year), index=pd.unique(w["economy"]))
     else:
-        ref = w.loc[(w["frequency"] == "A") & w["c"].notna()].groupby("economy")["year"].max()
+        ref = latest
 
     ann = _annual_chain(w[~w["sc"] & (w["frequency"] == "A")], ref)
     ann_lu = Lookup(codes, ann, ["c", "k", "clv", "fa"])
@@ -369,71 +375,6 @@ def _sign_changing_volumes(s: pd.DataFrame, ann_lu: Lookup) -> pd.DataFrame:
 
 
 # ------------------------------------------------------------------- re-referencing and checks
-def rereference(chained: pd.DataFrame, current: pd.DataFrame, reference_year: int, *,
-                hierarchy: Hierarchy | None = None) -> pd.DataFrame:
-    """Move chain-linked volumes to another reference year.
-
-    Parameters
-    ----------
-    chained
-        Levels panel; its ``chain_linked`` rows (annual and quarterly) are re-referenced.
-    current
-        Levels panel holding the annual ``current`` values of the new reference year.
-    reference_year
-        The new reference year r'.
-    hierarchy
-        Tells the sign-changing items and their top aggregates (default:
-        `Hierarchy.default`).
-
-    Returns
-    -------
-    DataFrame
-        Levels panel of ``chain_linked`` rows at the new reference.
-
-    Raises
-    ------
-    InputError
-        A series without annual current-price and chain-linked values in r', or with a
-        non-positive factor.
-
-    Notes
-    -----
-    One annual factor per series for its annual and quarterly values (METHODS.md 1):
-    CLV'_t = CLV_t C_{r'} / CLV_{r'}. Growth rates are unchanged; the quarters of r' no
-    longer add up. A sign-changing item takes the factor of its top aggregate (consistent
-    with `chain_link`, where its volume is re-expressed with that aggregate's deflator);
-    without one, its own factor.
-
-    References
-    ----------
-    ABS 5216.0 (2020-21), ch. 6 ¶6.29-6.31.
-    """
-    hierarchy = hierarchy if hierarchy is not None else Hierarchy.default()
-    ch = levels_wide(chained, {"chain_linked": "v"})
-    cur = levels_wide(current, {"current": "c"})
-    r = int(reference_year)
-    keys = ["economy", "item"]
-    f = ch[keys].drop_duplicates()
-    f = f.merge(ch.loc[(ch["frequency"] == "A") & (ch["year"] == r), keys + ["v"]], on=keys, how="left")
-    f = f.merge(cur.loc[(cur["frequency"] == "A") & (cur["year"] == r), keys + ["c"]], on=keys, how="left")
-    f["factor"] = f["c"] / f["v"]
-    f["sc"] = item_flags(f["item"], hierarchy.is_sign_changing)
-    ok = np.isfinite(f["factor"]) & (f["factor"] > 0)
-    tops = top_aggregates(hierarchy, f[f["sc"]], f[~f["sc"] & ok])
-    top_f = f[keys + ["factor"]].rename(columns={"item": "top", "factor": "top_factor"})
-    f = f.merge(tops.merge(top_f, on=["economy", "top"]), on=keys, how="left")
-    f["factor"] = np.where(f["top_factor"].notna(), f["top_factor"], f["factor"])
-    bad = ~(np.isfinite(f["factor"]) & (f["factor"] > 0))
-    raise_problems([Problem(economy=row.economy, item=row.item, period=str(r),
-                    price_basis="current" if pd.isna(row.c) else "chain_linked",
-                    reason="no annual current-price and chain-linked values in the new reference year "
-                           "(or their ratio is not positive): the series cannot be re-referenced")
-            for row in f[bad].itertuples(index=False)])
-    out = ch.merge(f[keys + ["factor"]], on=keys)
-    out["value"] = out["v"] * out["factor"]
-    return sort_levels(to_levels(out, "value"))
-
-
 def nonadditivity_residual(chained: pd.DataFrame, hierarchy: Hierarchy,
                            reported: pd.DataFrame | None = None) -> pd.DataFrame:
     """Aggregate minus the signed sum of its chain-linked components.

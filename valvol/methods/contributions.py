@@ -10,20 +10,19 @@ Contributions carry the component's sign: imports count negative when import vol
 Sign-changing items (inventories, valuables, discrepancy) get level-difference
 contributions and no growth rate of their own.
 
-The standalone helpers work on small wide frames (rows: periods in order, columns: items):
-`index_relatives`, `laspeyres_index`, `paasche_index`, `fisher_index`, `chain_index`,
-`fisher_contributions`, `fisher_price_contributions` and `fisher_contribution_weights`.
+The index-number helpers on small wide frames (Laspeyres, Paasche and Fisher indexes, the
+Fisher contributions and their weights) are in `valvol.methods.index_numbers`.
 """
 
 from __future__ import annotations
-
-from collections.abc import Mapping
 
 import numpy as np
 import pandas as pd
 
 from valvol.errors import ConfigError, InputError
+from valvol.frames import period_label
 from valvol.hierarchy import Hierarchy
+from valvol.methods.index_numbers import fisher_decomposition
 from valvol.methods.panel import (
     Lookup,
     PanelCodes,
@@ -31,7 +30,6 @@ from valvol.methods.panel import (
     item_flags,
     levels_wide,
     nonpositive_problems,
-    period_labels,
     top_aggregates,
 )
 
@@ -132,7 +130,7 @@ def volume_contributions(levels: pd.DataFrame, *, hierarchy: Hierarchy, conventi
         raise ConfigError(f"unknown contributions convention {convention!r}; "
                           f"expected one of {', '.join(CONVENTIONS)}")
     w = levels_wide(levels, {"current": "c", "previous_year": "k", "chain_linked": "v"})
-    problems = nonpositive_problems(w, hierarchy, {"c": "current", "k": "previous_year", "v": "chain_linked"})
+    problems = nonpositive_problems(w, {"c": "current", "k": "previous_year", "v": "chain_linked"}, hierarchy)
     if problems:
         raise InputError(problems)
     edges = pd.DataFrame(hierarchy.edges(), columns=["aggregate", "item", "sign"])
@@ -182,7 +180,7 @@ def volume_contributions(levels: pd.DataFrame, *, hierarchy: Hierarchy, conventi
     take, h, sid, zsid, year, quarter = (a[order] for a in (take, h, sid, zsid, year, quarter))
     out = pd.DataFrame({
         "economy": category_strings(codes.economies, sid // n_items),
-        "period": pd.Series(period_labels(year, quarter), dtype="str"),
+        "period": period_label(year, quarter),
         "frequency": category_strings(["A", "Q"], (quarter > 0).astype("int64")),
         "year": year, "quarter": quarter,
         "aggregate": category_strings(codes.items, zsid % n_items),
@@ -243,170 +241,20 @@ def _with_horizons(rows: pd.DataFrame) -> pd.DataFrame:
 
 def _fisher_long(rows: pd.DataFrame, lu: Lookup, sid: np.ndarray, tsid: np.ndarray, sign: np.ndarray,
                  group: np.ndarray) -> np.ndarray:
-    """Fisher contributions in current-price form, summed by aggregate, period and horizon."""
+    """Fisher contributions in current-price form, summed by aggregate, period and horizon.
+
+    Each component enters as its relative price r_i = p^i_t / p^i_{t_o} (old price 1) and its
+    quantity x_i / price (old x_{i,t_o}, new x_{i,t} / r_i), x = s_i C^i: the Fisher
+    decomposition of `valvol.methods.index_numbers.fisher_decomposition` on these is the
+    current-price form of the docstring of `volume_contributions`.
+    """
     year, qn = rows["year"].to_numpy(), rows["quarter"].to_numpy()
     yo, qo = rows["year_o"].to_numpy(), rows["quarter_o"].to_numpy()
     x1, x0 = sign * lu.get("c", sid, year, qn), sign * lu.get("c", sid, yo, qo)
     rel = (lu.get("c", tsid, year, qn) / lu.get("v", tsid, year, qn)) / (
         lu.get("c", tsid, yo, qo) / lu.get("v", tsid, yo, qo))
     ok = np.isfinite(x1) & np.isfinite(x0) & np.isfinite(rel)
-
-    def total(x: np.ndarray) -> np.ndarray:
-        return np.bincount(group, weights=np.where(ok, x, 0.0))[group]
-
-    v1, v0, s0r, s1r = total(x1), total(x0), total(x0 * rel), total(x1 / rel)
-    p_f = np.sqrt((s0r / v0) * (v1 / s1r))
-    q_f = (v1 / v0) / p_f
-    num = (v1 / v0) * (x1 / rel - x0) + q_f * (x1 - x0 * rel)
-    return np.where(ok, 100.0 * num / (v1 + q_f * s0r), np.nan)
-
-
-# --------------------------------------------------------------- Fisher helpers (wide frames)
-def _prices_quantities(values: pd.DataFrame, prices: pd.DataFrame | None, volumes: pd.DataFrame | None,
-                       signs: Mapping[str, int] | None) -> tuple[pd.DataFrame, pd.DataFrame]:
-    if (prices is None) == (volumes is None):
-        raise ValueError("give exactly one of prices and volumes")
-    x = values.astype("float64")
-    if prices is not None:
-        p = prices.reindex_like(x).astype("float64")
-        q = x / p
-    else:
-        q = volumes.reindex_like(x).astype("float64")
-        p = x / q
-    if signs:
-        q = q * pd.Series({c: float(signs.get(c, 1)) for c in x.columns})
-    return p, q
-
-
-def index_relatives(values: pd.DataFrame, prices: pd.DataFrame | None = None, *,
-                    volumes: pd.DataFrame | None = None, signs: Mapping[str, int] | None = None) -> pd.DataFrame:
-    """Laspeyres, Paasche and Fisher volume and price relatives on the previous period.
-
-    Parameters
-    ----------
-    values
-        Current-price values, rows periods in order, columns items.
-    prices, volumes
-        Exactly one: price indexes (any base) or volumes of the same items.
-    signs
-        Item -> -1 for items subtracted (imports: negative quantities).
-
-    Returns
-    -------
-    DataFrame
-        Columns laspeyres_volume, paasche_volume, fisher_volume, laspeyres_price,
-        paasche_price, fisher_price (ratios; NaN in the first period).
-
-    Notes
-    -----
-    Q^L = sum p_{t-1} q_t / sum p_{t-1} q_{t-1}, Q^P = sum p_t q_t / sum p_t q_{t-1},
-    Q^F = sqrt(Q^L Q^P); P^L, P^P, P^F likewise; P^F Q^F = V_t / V_{t-1} exactly.
-
-    References
-    ----------
-    BEA, *Survey of Current Business*, May 1996, box "Basic formulas"; ESA 95 ¶10.62;
-    Statistics Canada, 13-017-X (2008), Table 2.12.
-    """
-    p, q = _prices_quantities(values, prices, volumes, signs)
-    p0, q0 = p.shift(), q.shift()
-    s00, s01 = (p0 * q0).sum(axis=1, min_count=1), (p0 * q).sum(axis=1, min_count=1)
-    s10, s11 = (p * q0).sum(axis=1, min_count=1), (p * q).sum(axis=1, min_count=1)
-    out = pd.DataFrame({"laspeyres_volume": s01 / s00, "paasche_volume": s11 / s10,
-                        "laspeyres_price": s10 / s00, "paasche_price": s11 / s01}, index=values.index)
-    out.insert(2, "fisher_volume", np.sqrt(out["laspeyres_volume"] * out["paasche_volume"]))
-    out["fisher_price"] = np.sqrt(out["laspeyres_price"] * out["paasche_price"])
-    return out
-
-
-def laspeyres_index(values: pd.DataFrame, prices: pd.DataFrame | None = None, *, volumes=None, signs=None,
-                    kind: str = "volume") -> pd.Series:
-    """Unlinked Laspeyres index, previous period = 100 (``kind`` volume or price)."""
-    return 100.0 * index_relatives(values, prices, volumes=volumes, signs=signs)[f"laspeyres_{kind}"]
-
-
-def paasche_index(values: pd.DataFrame, prices: pd.DataFrame | None = None, *, volumes=None, signs=None,
-                  kind: str = "volume") -> pd.Series:
-    """Unlinked Paasche index, previous period = 100 (``kind`` volume or price)."""
-    return 100.0 * index_relatives(values, prices, volumes=volumes, signs=signs)[f"paasche_{kind}"]
-
-
-def fisher_index(values: pd.DataFrame, prices: pd.DataFrame | None = None, *, volumes=None, signs=None,
-                 kind: str = "volume") -> pd.Series:
-    """Unlinked Fisher index, previous period = 100 (``kind`` volume or price)."""
-    return 100.0 * index_relatives(values, prices, volumes=volumes, signs=signs)[f"fisher_{kind}"]
-
-
-def chain_index(unlinked: pd.Series, base: float = 100.0) -> pd.Series:
-    """Link an index on the previous period (= 100) into a chain, first period = ``base``."""
-    return base * (unlinked.fillna(100.0) / 100.0).cumprod()
-
-
-def fisher_contributions(values: pd.DataFrame, prices: pd.DataFrame | None = None, *,
-                         volumes: pd.DataFrame | None = None,
-                         signs: Mapping[str, int] | None = None) -> pd.DataFrame:
-    """Contributions (pp) of each item to the Fisher volume growth on the previous period.
-
-    Notes
-    -----
-    ctr_i = 100 (p_{i,t-1} + p_{i,t}/P^F)(q_{i,t} - q_{i,t-1}) / sum_j (p_{j,t-1} + p_{j,t}/P^F) q_{j,t-1},
-    summing to 100 (Q^F - 1) (METHODS.md 3.5).
-
-    References
-    ----------
-    Statistics Canada, 13-017-X (2008), Table 2.12; BEA, *A Guide to the NIPAs*, App. 3.
-
-    Examples
-    --------
-    >>> x = pd.DataFrame({"A": [10.0, 12.0], "B": [10.0, 10.0]})
-    >>> fisher_contributions(x, pd.DataFrame({"A": [1.0, 1.0], "B": [1.0, 1.0]})).iloc[1].tolist()
-    [10.0, 0.0]
-    """
-    p, q = _prices_quantities(values, prices, volumes, signs)
-    pf = index_relatives(values, prices, volumes=volumes, signs=signs)["fisher_price"]
-    weight = p.shift() + p.div(pf, axis=0)
-    return 100.0 * (weight * (q - q.shift())).div((weight * q.shift()).sum(axis=1, min_count=1), axis=0)
-
-
-def fisher_price_contributions(values: pd.DataFrame, prices: pd.DataFrame | None = None, *,
-                               volumes: pd.DataFrame | None = None,
-                               signs: Mapping[str, int] | None = None) -> pd.DataFrame:
-    """Contributions (pp) of each item to the Fisher price change on the previous period.
-
-    Notes
-    -----
-    ctr^P_i = 100 (q_{i,t-1} + q_{i,t}/Q^F)(p_{i,t} - p_{i,t-1}) / sum_j (q_{j,t-1} + q_{j,t}/Q^F) p_{j,t-1},
-    summing to 100 (P^F - 1) (METHODS.md 3.5, price side).
-    """
-    p, q = _prices_quantities(values, prices, volumes, signs)
-    qf = index_relatives(values, prices, volumes=volumes, signs=signs)["fisher_volume"]
-    weight = q.shift() + q.div(qf, axis=0)
-    return 100.0 * (weight * (p - p.shift())).div((weight * p.shift()).sum(axis=1, min_count=1), axis=0)
-
-
-def fisher_contribution_weights(values: pd.DataFrame, prices: pd.DataFrame | None = None, *,
-                                volumes: pd.DataFrame | None = None,
-                                signs: Mapping[str, int] | None = None) -> pd.DataFrame:
-    """Fisher contributions in weight form: ctr_i = W1_i W2_i g_i.
-
-    Returns
-    -------
-    DataFrame
-        Long: period, item, contribution_pp, own_volume_growth_pct (g_i),
-        weight_w1 (x_{i,t-1}/V_{t-1}) and weight_w2 ((1 + r_i/P^F) / (1 + P^L/P^F)),
-        r_i = p_{i,t}/p_{i,t-1}; the first period is left out.
-
-    References
-    ----------
-    Statistics Canada, 13-017-X (2008), Table 2.12 (weights W1 and W2).
-    """
-    p, q = _prices_quantities(values, prices, volumes, signs)
-    rel = index_relatives(values, prices, volumes=volumes, signs=signs)
-    x0 = (p * q).shift()
-    w1 = x0.div(x0.sum(axis=1, min_count=1), axis=0)
-    w2 = (1.0 + (p / p.shift()).div(rel["fisher_price"], axis=0)).div(
-        1.0 + rel["laspeyres_price"] / rel["fisher_price"], axis=0)
-    g = 100.0 * (q / q.shift() - 1.0)
-    parts = {"contribution_pp": w1 * w2 * g, "own_volume_growth_pct": g, "weight_w1": w1, "weight_w2": w2}
-    long = pd.concat({k: v.stack(future_stack=True) for k, v in parts.items()}, axis=1)
-    long.index.names = ["period", "item"]
-    return long.dropna(how="all").reset_index()
+    z = np.zeros_like(x0)
+    ctr, _, _ = fisher_decomposition(np.where(ok, 1.0, z), np.where(ok, rel, z), np.where(ok, x0, z),
+                                     np.where(ok, x1 / np.where(ok, rel, 1.0), z), group)
+    return np.where(ok, ctr, np.nan)

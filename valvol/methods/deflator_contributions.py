@@ -8,7 +8,7 @@ direct component, period and horizon; percentage points; imports negative):
 * `income_side_contributions`: unit labour costs, unit profits, unit net taxes and the
   unit discrepancy, whose sum is the GDP deflator.
 
-`fisher_price_contributions_arrays` is the price-side Fisher formula for one set of items.
+`first_year_values` and `step_values` are the two-link ends shared with `valvol.methods.price_gaps`.
 """
 
 from __future__ import annotations
@@ -19,7 +19,8 @@ import pandas as pd
 from valvol.errors import ConfigError, InputError, Problem
 from valvol.frames import period_label
 from valvol.hierarchy import Hierarchy
-from valvol.methods.deflators import _label, _raise_non_positive, pivot_bases, with_horizons
+from valvol.methods.index_numbers import fisher_decomposition
+from valvol.methods.panel import pivot_bases, raise_nonpositive, with_horizons
 
 CONVENTIONS: tuple[str, ...] = ("annual_overlap_exact", "fisher")
 CONTRIBUTION_COLUMNS = [
@@ -36,6 +37,60 @@ _ROW = ["economy", "frequency", "year", "quarter", "horizon"]
 _STEPS = ["ca1", "ka1", "cb1", "kb1", "ca2", "ka2", "cb2", "kb2"]
 
 
+def first_year_values(series: pd.DataFrame) -> pd.DataFrame:
+    """Values of each series' first year at that year's own average prices, in place of k.
+
+    Parameters
+    ----------
+    series
+        Columns economy, item, frequency, year, quarter, c (current prices), k (prices of
+        the previous year) and optionally v (chain-linked volume).
+
+    Returns
+    -------
+    DataFrame
+        ``series`` with k filled in the first year of each series when that year has no
+        previous-year value at all (quarterly or annual), and a boolean column ``unpriced``.
+
+    Notes
+    -----
+    The first year y0 of a series (the first year with a current value) has no prices of
+    the year before; its values are taken at its own average prices instead
+    (docs/derivations/first_link.md, section 2): the year, K_{y0} = C_{y0}; a quarter,
+    k(s, y0) = CLV(s, y0) C_{y0} / CLV_{y0}, which inverts the first-year rule of
+    `valvol.methods.chainlink.chain_link`, CLV(s, y0) = v(s, y0) CLV_{y0} / C_{y0}. The
+    quarter's price on that base is c/k = D(s, y0) / D_{y0}, its implicit deflator over the
+    year's. A quarter without a positive chain-linked volume of its own and of its year
+    takes k = c, as `chain_link` values such a quarter, and is flagged ``unpriced``: the
+    data do not tell its price relative to the year's average. The annual price level is
+    1 by construction and is never flagged.
+
+    References
+    ----------
+    IMF, *Quarterly National Accounts Manual*, 2017 edition, ch. 8 (previous-year prices,
+    annual overlap); ABS 5216.0 (2020-21), ch. 6 Annex, eqs (4)-(5).
+    """
+    s = series.reset_index(drop=True)
+    if "v" not in s.columns:
+        s = s.assign(v=np.nan)
+    by = [s["economy"], s["item"]]
+    y0 = s["year"].where(s["c"].notna()).groupby(by).transform("min")
+    has_k = s["k"].notna().groupby([*by, s["year"]]).transform("any")
+    first = (s["year"] == y0) & ~has_k
+    annual = s.loc[s["frequency"].eq("A"), ["economy", "item", "year", "c", "v"]]
+    year_values = s[["economy", "item", "year"]].merge(
+        annual.rename(columns={"c": "c_y", "v": "v_y"}), on=["economy", "item", "year"], how="left")
+    quarterly = s["frequency"].eq("Q").to_numpy()
+    v, v_y, c_y = s["v"].to_numpy(), year_values["v_y"].to_numpy(), year_values["c_y"].to_numpy()
+    with np.errstate(invalid="ignore"):
+        priced = (v > 0) & (v_y > 0)
+    at_own = np.where(quarterly & priced, v * c_y / np.where(priced, v_y, 1.0), s["c"].to_numpy())
+    fill = first.to_numpy()
+    s["k"] = np.where(fill, at_own, s["k"].to_numpy())
+    s["unpriced"] = fill & quarterly & ~priced
+    return s
+
+
 def step_values(series: pd.DataFrame) -> pd.DataFrame:
     """Values at the two ends of the two links that make up each period's change.
 
@@ -43,14 +98,17 @@ def step_values(series: pd.DataFrame) -> pd.DataFrame:
     ----------
     series
         Columns economy, item, frequency, year, quarter, c (current prices), k (prices of
-        the previous year).
+        the previous year; in a series' first year, as `first_year_values` fills them) and
+        optionally ``unpriced`` (from `first_year_values`).
 
     Returns
     -------
     DataFrame
         One row per series, period and horizon with the columns of `with_horizons` and
         ``ca1, ka1, cb1, kb1`` (step 1, old end a and new end b), ``ca2 ... kb2`` (step 2),
-        plus ``ok`` (every value needed is present).
+        ``ok`` (every value needed is present, and the old period has a current value) and
+        ``unpriced`` (an end of the link is a first-year quarter whose price relative the
+        data do not give).
 
     Notes
     -----
@@ -64,11 +122,18 @@ def step_values(series: pd.DataFrame) -> pd.DataFrame:
       (c, k)(t_n), prices of y-1.
 
     The product of the two ratios P_b/P_a is D(t_n)/D(t_o) for annual-overlap data
-    (METHODS.md sections 2.2 and 4.1).
+    (docs/derivations/first_link.md, section 1). When y-1 is the first year of the
+    series, step 1 runs at the average prices of y-1 itself: from (c(t_o), k0(t_o)),
+    k0 = CLV C_{y-1}/CLV_{y-1}, to (C_{y-1}, C_{y-1}); within the first year both ends are
+    (c, k0) (same file, sections 2 to 4). The annual link needs year y only.
     """
-    base = series[_SERIES + ["c", "k"]]
+    cols = _SERIES + ["c", "k"] + (["unpriced"] if "unpriced" in series.columns else [])
+    base = series[cols]
+    if "unpriced" not in base.columns:
+        base = base.assign(unpriced=False)
     h = with_horizons(base)
-    old = base.rename(columns={"year": "old_year", "quarter": "old_quarter", "c": "c_o", "k": "k_o"})
+    old = base.rename(columns={"year": "old_year", "quarter": "old_quarter", "c": "c_o", "k": "k_o",
+                               "unpriced": "unpriced_o"})
     h = h.merge(old, on=["economy", "item", "frequency", "old_year", "old_quarter"], how="left")
     annual = base.loc[base["frequency"].eq("A"), ["economy", "item", "year", "c", "k"]]
     annual = annual.rename(columns={"year": "ann_year", "c": "C_p", "k": "K_p"})
@@ -86,39 +151,8 @@ def step_values(series: pd.DataFrame) -> pd.DataFrame:
     h["ka2"] = np.where(within, k_o, k)
     h["cb2"], h["kb2"] = c, k
     h["ok"] = h[_STEPS].notna().all(axis=1) & h["c_o"].notna()
-    return h.drop(columns=["c_o", "k_o", "C_p", "K_p", "ann_year"])
-
-
-def fisher_price_contributions_arrays(
-    p0: np.ndarray, p1: np.ndarray, q0: np.ndarray, q1: np.ndarray
-) -> tuple[np.ndarray, float, float]:
-    """Price-side contributions to the change of a Fisher price index, one set of items.
-
-    Parameters
-    ----------
-    p0, p1, q0, q1
-        Prices and quantities of each item in the old and new period; items subtracted
-        from the aggregate (imports) enter with negative quantities.
-
-    Returns
-    -------
-    tuple
-        (contributions in pp, Fisher price relative P^F, Fisher quantity relative Q^F).
-
-    Notes
-    -----
-    ctr_i = 100 (q_{i,0} + q_{i,1}/Q^F)(p_{i,1} - p_{i,0}) / sum_j (q_{j,0} + q_{j,1}/Q^F) p_{j,0},
-    P^F = sqrt(P^L P^P), Q^F = (V_1/V_0)/P^F; sum_i ctr_i = 100 (P^F - 1) exactly
-    (METHODS.md section 3.5, price side).
-
-    References
-    ----------
-    BEA, *A Guide to the NIPAs*, appendix 3; Statistics Canada, *User Guide: Canadian
-    System of Macroeconomic Accounts* (13-017-X, 2008), Table 2.12 (volume side).
-    """
-    arrays = [np.asarray(a, dtype="float64") for a in (p0, p1, q0, q1)]
-    ctr, pf, qf = _fisher_core(*arrays, np.zeros(len(arrays[0]), dtype="int64"))
-    return ctr, float(pf[0]), float(qf[0])
+    h["unpriced"] = h["unpriced"].astype(bool) | h["unpriced_o"].fillna(False).astype(bool)
+    return h.drop(columns=["c_o", "k_o", "C_p", "K_p", "ann_year", "unpriced_o"])
 
 
 def deflator_contributions(
@@ -153,9 +187,9 @@ def deflator_contributions(
     ConfigError
         Unknown convention.
     InputError
-        Zero or negative values of a positive aggregate (or, under ``fisher``, of a positive
-        component); a component that the economy reports lacks a value the aggregate's
-        change needs.
+        Zero or negative values of a positive aggregate, at any price basis (or, under
+        ``fisher``, of a positive component); a component that the economy reports lacks a
+        value the aggregate's change needs.
 
     Notes
     -----
@@ -169,7 +203,20 @@ def deflator_contributions(
     signed sum of its components. Inventories and other sign-changing items enter in level
     form and need no deflator of their own.
 
-    ``fisher``: the price-side Fisher formula of `fisher_price_contributions_arrays` between the two
+    First link (docs/derivations/first_link.md). The annual link of the second year y0+1
+    needs year y0+1 only, so it exists wherever the first year has a current value. In the
+    first year y0 (no previous-year values) the same formulas run at the average prices of
+    y0 (`first_year_values`): K^Z_{y0} = C^Z_{y0} and a quarter's k0^Z = CLV^Z C^Z_{y0} /
+    CLV^Z_{y0}. Across the first year boundary and year on year in y0+1, step 1 becomes
+    d1_i = 100 s_i [C^i_{y0} k0^Z(t_o)/C^Z_{y0} - c^i(t_o)] / c^Z(t_o) and
+    1 + G1 = k0^Z(t_o)/c^Z(t_o) = D^Z_{y0}/D^Z(t_o); within y0, ctr_i = 100 s_i
+    [c^i(s) k0^Z(s-1)/k0^Z(s) - c^i(s-1)] / c^Z(s-1). They add up exactly to the growth of
+    the implicit deflator c/CLV when the chain-linked volumes of y0+1 are linked to y0 by
+    annual overlap. These quarterly rows need the aggregate's chain-linked values in y0:
+    without them its first-year quarterly deflators are not given and the rows are left
+    out.
+
+    ``fisher``: the price side of `valvol.methods.index_numbers.fisher_decomposition` between the two
     periods compared, with p_i = c_i/CLV_i and q_i = s_i CLV_i (imports at negative
     quantities); a sign-changing component is priced at the aggregate's implicit deflator
     (q_i = s_i c_i / p_Z), a valvol convention. Year-on-year quarterly rows use the direct
@@ -192,11 +239,11 @@ def deflator_contributions(
     aggs = wide.loc[wide["item"].isin(edges["aggregate"])]
     if convention == "fisher":
         positive = edges.loc[~edges["item"].map(hierarchy.is_sign_changing).astype(bool), "item"]
-        _raise_non_positive(wide.loc[wide["item"].isin(positive)], ("current", "chain_linked"))
-        _raise_non_positive(aggs, ("current", "chain_linked"))
+        raise_nonpositive(wide.loc[wide["item"].isin(positive)], ("current", "chain_linked"))
+        raise_nonpositive(aggs, ("current", "chain_linked"))
         out = _fisher(wide, edges, hierarchy)
     else:
-        _raise_non_positive(aggs, ("current", "previous_year"))
+        raise_nonpositive(aggs, ("current", "previous_year", "chain_linked"))
         out = _annual_overlap_exact(wide, edges)
     return _finish(out)
 
@@ -239,6 +286,8 @@ def income_side_contributions(levels: pd.DataFrame, *, real_gdp_item: str = "B1G
     real GDP; ECB Economic Bulletin 4/2023, box; Statistics Canada, The Daily,
     28 June 2023, Table 1.
     """
+    if not levels["item"].isin(list(INCOME_ITEMS)).any():  # no income side given
+        return _finish(pd.DataFrame())
     wide = pivot_bases(levels)
     keys = ["economy", "frequency", "year", "quarter", "period"]
     inc = wide.loc[wide["item"].isin(list(INCOME_ITEMS))].pivot(index=keys, columns="item", values="current")
@@ -252,7 +301,7 @@ def income_side_contributions(levels: pd.DataFrame, *, real_gdp_item: str = "B1G
             for r in inc.index[partial]
         ])
     gdp = wide.loc[wide["item"].eq(real_gdp_item), keys + ["current", "chain_linked"]].dropna()
-    _raise_non_positive(gdp.assign(item=real_gdp_item), ("current", "chain_linked"))
+    raise_nonpositive(gdp.assign(item=real_gdp_item), ("current", "chain_linked"))
     m = inc.dropna().reset_index().merge(gdp, on=keys, how="inner")
     x = m["chain_linked"]
     units = {label: m[item] / x for item, label in INCOME_ITEMS.items()}
@@ -273,9 +322,11 @@ def income_side_contributions(levels: pd.DataFrame, *, real_gdp_item: str = "B1G
 
 def _annual_overlap_exact(wide: pd.DataFrame, edges: pd.DataFrame) -> pd.DataFrame:
     """Two-step contributions for every (aggregate, component, period, horizon)."""
-    series = wide[_SERIES].assign(c=wide["current"], k=wide["previous_year"])
-    steps = step_values(series.dropna(subset=["c", "k"]))
-    agg = steps.loc[steps["ok"] & steps["item"].isin(edges["aggregate"])]
+    series = wide[_SERIES].assign(c=wide["current"], k=wide["previous_year"], v=wide["chain_linked"])
+    steps = step_values(first_year_values(series.dropna(subset=["c"])))
+    # an aggregate needs every end priced; a component's own volumes do not enter its
+    # (level-form) contribution, so an unpriced first-year end does not keep it out
+    agg = steps.loc[steps["ok"] & ~steps["unpriced"] & steps["item"].isin(edges["aggregate"])]
     agg = agg.rename(columns={"item": "aggregate", **{s: "z" + s for s in _STEPS}})
     agg = agg[["aggregate", *_ROW, *("z" + s for s in _STEPS)]]
     comp = steps.loc[steps["ok"], _SERIES + ["horizon", *_STEPS]]
@@ -315,7 +366,7 @@ def _fisher(wide: pd.DataFrame, edges: pd.DataFrame, hierarchy: Hierarchy) -> pd
     if unpriced.any():
         bad = m.loc[unpriced].drop_duplicates(["economy", "aggregate"])
         raise InputError([
-            Problem(economy=r.economy, item=r.aggregate, period=_label(r.year, r.quarter),
+            Problem(economy=r.economy, item=r.aggregate, period=period_label([r.year], [r.quarter])[0],
                     price_basis="chain_linked",
                     reason=f"no chain-linked value to price the sign-changing component {r.item}")
             for r in bad.itertuples(index=False)
@@ -325,25 +376,11 @@ def _fisher(wide: pd.DataFrame, edges: pd.DataFrame, hierarchy: Hierarchy) -> pd
     s = m["sign"].to_numpy()
     q1, q0 = s * m["c"].to_numpy() / p1, s * m["c_o"].to_numpy() / p0
     codes = m.groupby(["aggregate", *_ROW], sort=False).ngroup().to_numpy()
-    ctr, pf, _ = _fisher_core(p0, p1, q0, q1, codes)
+    ctr, _, pf = fisher_decomposition(q0, q1, p0, p1, codes)
     m["contribution_pp"] = ctr
     chained = 100.0 * ((m["zc"] / m["zv"]) / (m["zc_o"] / m["zv_o"]) - 1.0)
     m["aggregate_growth_pct"] = chained.fillna(pd.Series(100.0 * (pf - 1.0), index=m.index))
     return m
-
-
-def _fisher_core(p0, p1, q0, q1, codes):
-    """Fisher price contributions with group sums over ``codes`` (one aggregate-period each)."""
-    n = int(codes.max()) + 1 if len(codes) else 0
-
-    def gsum(x: np.ndarray) -> np.ndarray:
-        return np.bincount(codes, weights=x, minlength=n)[codes]
-
-    v0, v1 = gsum(p0 * q0), gsum(p1 * q1)
-    pf = np.sqrt((gsum(p1 * q0) / v0) * (v1 / gsum(p0 * q1)))
-    qf = (v1 / v0) / pf
-    w = q0 + q1 / qf
-    return 100.0 * w * (p1 - p0) / gsum(w * p0), pf, qf
 
 
 def _chained_growth(wide: pd.DataFrame, edges: pd.DataFrame) -> pd.DataFrame:
@@ -365,7 +402,7 @@ def _require_components(m: pd.DataFrame, wide: pd.DataFrame, has: np.ndarray | p
     bad = m.loc[gap & is_reported]
     if len(bad):
         raise InputError([
-            Problem(economy=r.economy, item=r.item, period=_label(r.year, r.quarter),
+            Problem(economy=r.economy, item=r.item, period=period_label([r.year], [r.quarter])[0],
                     reason=f"component of {r.aggregate} lacks a value needed for its {r.horizon} change")
             for r in bad.drop_duplicates(["economy", "item", "year", "quarter"]).itertuples(index=False)
         ])

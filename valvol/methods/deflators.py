@@ -1,23 +1,24 @@
-"""Implicit deflators from current prices and chain-linked volumes, and their re-referencing.
+"""Implicit deflators from current prices and chain-linked volumes, their growth and re-referencing.
 
 The implicit deflator of a series is its value at current prices over its chain-linked
-volume, times 100. Annual deflators come from the annual values (value-weighted), never
-from the mean of the quarterly deflators. Sign-changing items (inventories, valuables,
-discrepancy, external balance; `Hierarchy.is_sign_changing`) get no deflator.
-
-The module also holds the small panel utilities the other price methods share:
-`pivot_bases` (one row per series and period with one column per price basis) and
-`with_horizons` (the comparison period of every row for each growth horizon).
+volume, times 100; growth rates are 100 (x_t / x_base - 1). Both formulas have one
+implementation, the set-based statements ``sql/int_deflators.sql`` and ``sql/int_growth.sql``
+that the derive stage runs on every chunk of economies; the functions here run the same
+statements on a frame in a scratch in-memory database, for tests and for library use.
+Annual deflators come from the annual values (value-weighted), never from the mean of the
+quarterly deflators. Sign-changing items (inventories, valuables, discrepancy, external
+balance and their breakdowns; `Hierarchy.is_sign_changing`) get no deflator.
 """
 
 from __future__ import annotations
 
-import numpy as np
 import pandas as pd
 
+from valvol import db
 from valvol.errors import InputError, Problem
-from valvol.frames import KEY, PRICE_BASES, period_label
+from valvol.frames import LEVEL_COLUMNS, period_label
 from valvol.hierarchy import Hierarchy
+from valvol.methods.panel import pivot_bases, raise_nonpositive
 
 #: Growth horizons: previous period (quarter or year) and the same period a year earlier.
 HORIZONS: tuple[str, str] = ("prev_period", "prev_year")
@@ -27,67 +28,14 @@ DEFLATOR_COLUMNS = ["economy", "period", "frequency", "year", "quarter", "item",
 GROWTH_COLUMNS = ["economy", "period", "frequency", "year", "quarter", "item", "horizon", "pct"]
 
 
-def pivot_bases(levels: pd.DataFrame) -> pd.DataFrame:
-    """Spread a levels panel into one column per price basis.
-
-    Parameters
-    ----------
-    levels
-        Levels panel (`valvol.frames`); rows with another price basis are ignored.
-
-    Returns
-    -------
-    DataFrame
-        Columns economy, item, frequency, year, quarter, period, current, previous_year,
-        chain_linked (NaN where the panel has no such value).
-
-    Raises
-    ------
-    InputError
-        Columns missing, or the same key given twice.
-    """
-    missing = [c for c in ("economy", "item", "price_basis", "frequency", "year", "quarter", "value")
-               if c not in levels.columns]
-    if missing:
-        raise InputError([Problem(reason=f"levels panel lacks column(s) {', '.join(missing)}")])
-    df = levels.loc[levels["price_basis"].isin(PRICE_BASES), KEY + ["value"]].copy()
-    df["year"] = df["year"].astype("int64")
-    df["quarter"] = df["quarter"].astype("int64")
-    df["value"] = df["value"].astype("float64")
-    dup = df.duplicated(KEY, keep="first")
-    if dup.any():
-        raise InputError([
-            Problem(economy=r.economy, item=r.item, price_basis=r.price_basis,
-                    period=_label(r.year, r.quarter), reason="value given more than once")
-            for r in df.loc[dup].itertuples(index=False)
-        ])
-    wide = df.dropna(subset=["value"]).set_index(KEY)["value"].unstack("price_basis")
-    wide = wide.reindex(columns=list(PRICE_BASES)).reset_index()
-    wide.columns.name = None
-    wide.insert(5, "period", period_label(wide["year"], wide["quarter"]).to_numpy())
-    return wide.sort_values(WIDE_KEY, kind="mergesort", ignore_index=True)
-
-
-def with_horizons(df: pd.DataFrame) -> pd.DataFrame:
-    """Repeat each row once per horizon and name its comparison period.
-
-    Adds columns ``horizon``, ``old_year``, ``old_quarter`` and ``cross`` (True when the
-    comparison period lies in the previous calendar year, i.e. the link crosses a year
-    boundary: quarterly ``prev_year`` rows and first quarters under ``prev_period``).
-    Annual rows carry the change on the previous year under both horizon labels.
-    """
-    q = df["frequency"].eq("Q").to_numpy()
-    quarter = df["quarter"].to_numpy()
-    year = df["year"].to_numpy()
-    prev_period = df.assign(
-        horizon="prev_period",
-        old_year=np.where(q & (quarter > 1), year, year - 1),
-        old_quarter=np.where(q, np.where(quarter > 1, quarter - 1, 4), 0),
-    )
-    prev_year = df.assign(horizon="prev_year", old_year=year - 1, old_quarter=quarter)
-    out = pd.concat([prev_period, prev_year], ignore_index=True)
-    out["cross"] = out["frequency"].eq("Q") & (out["horizon"].eq("prev_year") | out["quarter"].eq(1))
-    return out
+def _scratch(levels: pd.DataFrame, hierarchy: Hierarchy):
+    con = db.connect(threads=1)
+    db.register(con, "method_rows", levels[LEVEL_COLUMNS].assign(origin="input"))
+    db.run_sql(con, "int_levels_from_rows")
+    con.unregister("method_rows")
+    sign_changing = hierarchy.sign_changing_among(pd.unique(levels["item"]))
+    db.run_sql(con, "int_deflators", sign_changing=sign_changing)
+    return con, sign_changing
 
 
 def implicit_deflators(
@@ -108,23 +56,24 @@ def implicit_deflators(
     Returns
     -------
     DataFrame
-        Columns economy, period, frequency, year, quarter, item, deflator.
+        Columns economy, period, frequency, year, quarter, item, deflator, sorted by series
+        and period.
 
     Raises
     ------
     InputError
         A zero or negative current or chain-linked value of an item that is not
-        sign-changing, or (with ``reference_year``) a series without an annual value in the
-        reference year; each problem names economy, item, period.
+        sign-changing, a value given twice, or (with ``reference_year``) a series without an
+        annual value in the reference year; each problem names economy, item, period.
 
     Notes
     -----
-    D_t = 100 c_t / CLV_t; the annual D_y = 100 C_y / CLV_y, the value-weighted deflator,
-    which differs from the mean of the quarterly deflators. Within one annual link
-    D_y / D_{y-1} = C_y / K_y, a Paasche price index. Re-referencing to r:
+    D_t = 100 c_t / CLV_t (``sql/int_deflators.sql``); the annual D_y = 100 C_y / CLV_y, the
+    value-weighted deflator, which differs from the mean of the quarterly deflators. Within
+    one annual link D_y / D_{y-1} = C_y / K_y, a Paasche price index. Re-referencing to r:
     D'_t = 100 D_t / D_r, D_r the annual deflator of r; growth rates are unchanged.
-    Sign-changing items (P52, P53, B11, YA1, ``*_RESIDUAL``) have numerator and denominator
-    near zero or of opposite sign and get no deflator (METHODS.md section 1).
+    Sign-changing items (P52, P53, B11, YA1 and their breakdowns, ``*_RESIDUAL``) have
+    numerator and denominator near zero or of opposite sign and get no deflator.
 
     References
     ----------
@@ -134,19 +83,19 @@ def implicit_deflators(
 
     Examples
     --------
-    >>> from valvol.hierarchy import Hierarchy
     >>> lv = pd.DataFrame({"economy": "XX", "item": "P6", "price_basis": ["current", "chain_linked"],
     ...                    "frequency": "A", "year": 2021, "quarter": 0, "period": "2021",
     ...                    "value": [110.0, 100.0]})
     >>> implicit_deflators(lv, hierarchy=Hierarchy.default())["deflator"].tolist()
     [110.0]
     """
-    wide = pivot_bases(levels)
-    positive = ~wide["item"].map(hierarchy.is_sign_changing).astype(bool)
-    wide = wide.loc[positive]
-    _raise_non_positive(wide, ("current", "chain_linked"))
-    d = wide.dropna(subset=["current", "chain_linked"]).copy()
-    d["deflator"] = 100.0 * d["current"] / d["chain_linked"]
+    wide = pivot_bases(levels)  # located errors for values given twice or not finite
+    raise_nonpositive(wide, ("current", "chain_linked"), hierarchy)
+    con, _ = _scratch(levels, hierarchy)
+    try:
+        d = db.query_df(con, "int_deflators_read")
+    finally:
+        con.close()
     if reference_year is not None:
         base = d.loc[d["frequency"].eq("A") & d["year"].eq(int(reference_year)), ["economy", "item", "deflator"]]
         d = d.merge(base.rename(columns={"deflator": "base"}), on=["economy", "item"], how="left")
@@ -163,48 +112,40 @@ def implicit_deflators(
 
 
 def deflator_growth(deflators: pd.DataFrame) -> pd.DataFrame:
-    """Growth rates (percent) of a deflator table over both horizons.
+    """Growth rates (percent) of a deflator table over both horizons (``sql/int_growth.sql``).
 
     Parameters
     ----------
     deflators
-        Output of `implicit_deflators`.
+        Output of `implicit_deflators` (columns economy, item, frequency, year, quarter,
+        deflator).
 
     Returns
     -------
     DataFrame
         Columns economy, period, frequency, year, quarter, item, horizon, pct; one row per
-        period whose comparison period is present (quarters: previous quarter and same
-        quarter a year earlier; years: previous year, under both horizon labels).
+        period whose comparison period is present and positive (quarters: previous quarter
+        and same quarter a year earlier; years: previous year, under both horizon labels).
 
     Notes
     -----
     pct = 100 (D_t / D_{t_o} - 1), t_o the comparison period. Re-referencing leaves it
-    unchanged (METHODS.md section 1).
+    unchanged.
     """
-    d = deflators[["economy", "item", "frequency", "year", "quarter", "deflator"]]
-    h = with_horizons(d)
-    old = d.rename(columns={"year": "old_year", "quarter": "old_quarter", "deflator": "old"})
-    m = h.merge(old, on=["economy", "item", "frequency", "old_year", "old_quarter"], how="inner")
-    m["pct"] = 100.0 * (m["deflator"] / m["old"] - 1.0)
-    m["period"] = period_label(m["year"], m["quarter"]).to_numpy()
-    m = m.sort_values(WIDE_KEY + ["horizon"], kind="mergesort", ignore_index=True)
-    return m[GROWTH_COLUMNS]
-
-
-def _raise_non_positive(wide: pd.DataFrame, bases: tuple[str, ...]) -> None:
-    """InputError for every zero or negative value of ``bases`` in ``wide``."""
-    problems = []
-    for basis in bases:
-        bad = wide.loc[wide[basis] <= 0]
-        problems += [
-            Problem(economy=r.economy, item=r.item, period=r.period, price_basis=basis,
-                    reason=f"value {getattr(r, basis):g} is zero or negative for an item that must be positive")
-            for r in bad.itertuples(index=False)
-        ]
-    if problems:
-        raise InputError(problems)
-
-
-def _label(year: int, quarter: int) -> str:
-    return f"{year}" if quarter == 0 else f"{year}-Q{quarter}"
+    con = db.connect(threads=1)
+    try:
+        db.register(con, "method_rows", pd.DataFrame({c: pd.Series(dtype="float64" if c == "value" else "int64"
+                                                                   if c in ("year", "quarter") else "str")
+                                                      for c in [*LEVEL_COLUMNS, "origin"]}))
+        db.run_sql(con, "int_levels_from_rows")
+        con.unregister("method_rows")
+        d = deflators[["economy", "item", "frequency", "year", "quarter", "deflator"]]
+        db.register(con, "deflator_rows", d.assign(period=period_label(d["year"], d["quarter"]).to_numpy()))
+        db.run_sql(con, "int_deflators_from_rows")
+        con.unregister("deflator_rows")
+        db.run_sql(con, "int_growth", sign_changing=[])
+        g = db.query_df(con, "int_growth_read")
+    finally:
+        con.close()
+    g = g[g["measure"] == "price"].sort_values(WIDE_KEY + ["horizon"], kind="mergesort", ignore_index=True)
+    return g[GROWTH_COLUMNS]

@@ -14,8 +14,9 @@ import numpy as np
 import pandas as pd
 
 from valvol.errors import InputError, Problem
-from valvol.frames import KEY, LEVEL_COLUMNS, period_label
+from valvol.frames import KEY, LEVEL_COLUMNS, PRICE_BASES, period_label
 from valvol.hierarchy import Hierarchy
+from valvol.schemas.checks import key_codes
 
 _WIDE_KEY = ["economy", "item", "frequency", "year", "quarter"]
 
@@ -83,13 +84,6 @@ def levels_wide(levels: pd.DataFrame, bases: Mapping[str, str]) -> pd.DataFrame:
     for j, col in enumerate(cols):
         wide[col] = mat[:, j]
     return wide
-
-
-def period_labels(year: np.ndarray, quarter: np.ndarray) -> np.ndarray:
-    """`valvol.frames.period_label` computed once per distinct period (fast on long panels)."""
-    code = np.asarray(year, dtype="int64") * 5 + np.asarray(quarter, dtype="int64")
-    uniq, inverse = np.unique(code, return_inverse=True)
-    return period_label(uniq // 5, uniq % 5).to_numpy(dtype=object)[inverse]
 
 
 def item_flags(items: pd.Series, predicate) -> np.ndarray:
@@ -185,14 +179,68 @@ def category_strings(labels: Iterable[str], codes: np.ndarray) -> pd.Series:
     return pd.Series(pd.array(list(labels), dtype="str")).take(np.asarray(codes)).reset_index(drop=True)
 
 
-def nonpositive_problems(wide: pd.DataFrame, hierarchy: Hierarchy, columns: Mapping[str, str]) -> list[Problem]:
-    """Zero or negative values of positive (not sign-changing) series, located."""
-    positive = ~item_flags(wide["item"], hierarchy.is_sign_changing)
+def nonpositive_problems(wide: pd.DataFrame, columns: Mapping[str, str],
+                         hierarchy: Hierarchy | None = None) -> list[Problem]:
+    """Zero or negative values in the ``columns`` of a wide frame, located (the one such rule).
+
+    ``columns`` maps a wide column to its price basis. With ``hierarchy``, only positive
+    (not sign-changing) series are judged; without it, every row of ``wide``.
+    """
+    positive = (~item_flags(wide["item"], hierarchy.is_sign_changing) if hierarchy is not None
+                else np.ones(len(wide), dtype=bool))
     out: list[Problem] = []
     for col, basis in columns.items():
-        bad = positive & (wide[col] <= 0)
+        bad = positive & (wide[col] <= 0).to_numpy()
         out += problems_at(wide[bad], f"value {basis} is zero or negative in a series that must be "
                            "positive (no ratio can be chained or weighted)", price_basis=basis)
+    return out
+
+
+def raise_nonpositive(wide: pd.DataFrame, columns: Mapping[str, str] | Iterable[str],
+                      hierarchy: Hierarchy | None = None) -> None:
+    """`nonpositive_problems` raised as one `InputError` (``columns`` may name bases that are columns)."""
+    if not isinstance(columns, Mapping):
+        columns = {c: c for c in columns}
+    raise_problems(nonpositive_problems(wide, columns, hierarchy))
+
+
+#: Price bases as the columns `pivot_bases` spreads them into.
+BASIS_COLUMNS = {basis: basis for basis in PRICE_BASES}
+
+
+def pivot_bases(levels: pd.DataFrame) -> pd.DataFrame:
+    """`levels_wide` with one column per price basis (named as the basis) and the period label.
+
+    Columns economy, item, frequency, year, quarter, period, current, previous_year,
+    chain_linked; sorted by economy, item, frequency (annual first), year, quarter.
+    """
+    wide = levels_wide(levels, BASIS_COLUMNS)
+    wide.insert(5, "period", period_label(wide["year"], wide["quarter"]).to_numpy())
+    order = np.lexsort((wide["quarter"].to_numpy(), wide["year"].to_numpy(), wide["frequency"].ne("A").to_numpy(),
+                        key_codes(wide, ["economy", "item"])))
+    return wide.take(order).reset_index(drop=True)
+
+
+def with_horizons(df: pd.DataFrame) -> pd.DataFrame:
+    """Repeat each row once per growth horizon and name its comparison period.
+
+    Adds columns ``horizon`` (``prev_period``: the previous quarter or year; ``prev_year``:
+    the same period a year earlier), ``old_year``, ``old_quarter`` and ``cross`` (True when
+    the comparison period lies in the previous calendar year, i.e. the link crosses a year
+    boundary: quarterly ``prev_year`` rows and first quarters under ``prev_period``). Annual
+    rows carry the change on the previous year under both horizon labels.
+    """
+    q = df["frequency"].eq("Q").to_numpy()
+    quarter = df["quarter"].to_numpy()
+    year = df["year"].to_numpy()
+    prev_period = df.assign(
+        horizon="prev_period",
+        old_year=np.where(q & (quarter > 1), year, year - 1),
+        old_quarter=np.where(q, np.where(quarter > 1, quarter - 1, 4), 0),
+    )
+    prev_year = df.assign(horizon="prev_year", old_year=year - 1, old_quarter=quarter)
+    out = pd.concat([prev_period, prev_year], ignore_index=True)
+    out["cross"] = out["frequency"].eq("Q") & (out["horizon"].eq("prev_year") | out["quarter"].eq(1))
     return out
 
 
@@ -250,7 +298,7 @@ def to_levels(frame: pd.DataFrame, column: str) -> pd.DataFrame:
                     ["economy", "item", "frequency", "year", "quarter", column]]
     out = out.rename(columns={column: "value"})
     out.insert(2, "price_basis", "chain_linked")
-    out["period"] = pd.Series(period_labels(out["year"], out["quarter"]), index=out.index, dtype="str")
+    out["period"] = period_label(out["year"], out["quarter"]).set_axis(out.index)
     return out[LEVEL_COLUMNS]
 
 
@@ -259,3 +307,31 @@ def raise_problems(problems: list[Problem]) -> None:
         raise InputError(problems)
 
 
+
+
+def zero_fill_components(levels: pd.DataFrame, hierarchy: Hierarchy) -> pd.DataFrame:
+    """Zeros for a component's periods before it starts (or after it ends), where its aggregate has values.
+
+    The aggregates are formed with a missing component counting as zero in that period
+    (``sql/int_aggregate.sql``); the decompositions see the same zeros, so that a series
+    starting later than others contributes its level change from zero, and the aggregate's
+    contributions still add up. Only series the economy reports are filled.
+    """
+    from valvol.schemas.checks import key_codes
+
+    edges = pd.DataFrame(hierarchy.edges(), columns=["aggregate", "item", "sign"])[["aggregate", "item"]]
+    at = ["economy", "price_basis", "frequency", "year", "quarter", "period"]
+    aggregate_rows = levels.loc[levels["item"].isin(edges["aggregate"].unique()), [*at, "item"]]
+    wanted = aggregate_rows.rename(columns={"item": "aggregate"}).merge(edges, on="aggregate")[[*at, "item"]]
+    if wanted.empty:
+        return levels
+    n = len(levels)
+    both = pd.concat([levels[[*at, "item"]], wanted], ignore_index=True)
+    row = key_codes(both, ["economy", "item", "price_basis", "frequency", "year", "quarter"])
+    series = key_codes(both, ["economy", "item", "price_basis", "frequency"])
+    new = ~np.isin(row[n:], row[:n]) & np.isin(series[n:], series[:n])
+    new &= ~pd.Series(row[n:]).duplicated().to_numpy()
+    if not new.any():
+        return levels
+    missing = wanted[new].assign(value=0.0)
+    return pd.concat([levels, missing[levels.columns]], ignore_index=True)

@@ -33,16 +33,15 @@ import pandas as pd
 from valvol.errors import ConfigError, InputError, Problem
 from valvol.frames import period_label
 from valvol.hierarchy import Hierarchy
-from valvol.methods.deflator_contributions import step_values
-from valvol.methods.deflators import _raise_non_positive, pivot_bases, with_horizons
+from valvol.methods.deflator_contributions import first_year_values, step_values
+from valvol.methods.panel import pivot_bases, raise_nonpositive, with_horizons
+from valvol.methods.reference_year import reference_year_candidates
 
 NUMERAIRES: tuple[str, ...] = ("trade_average", "import", "export", "domestic_final_demand")
 GDP, EXPORTS, IMPORTS, HOUSEHOLD, DOMESTIC_DEMAND = "B1GQ", "P6", "P7", "P31_S14", "P3_P5"
 DOMESTIC_DEMAND_PARTS: tuple[tuple[str, int], ...] = (("P3", 1), ("P5", 1))
 DOMESTIC_FINAL_DEMAND_PARTS: tuple[tuple[str, int], ...] = (("P3", 1), ("P51G", 1))
 MEASURE_COLUMNS = ["economy", "period", "frequency", "year", "quarter", "measure", "horizon", "value"]
-#: Relative tolerance when finding the reference year as the year where CLV = current.
-REFERENCE_TOLERANCE = 1e-6
 
 _KEYS = ["economy", "frequency", "year", "quarter"]
 _ROW = ["economy", "frequency", "year", "quarter", "horizon"]
@@ -89,8 +88,9 @@ def price_gaps(
     ConfigError
         Unknown numeraire.
     InputError
-        Zero or negative values of GDP, exports or imports; no reference year found when
-        the numeraire needs one; a malformed CPI frame.
+        Zero or negative current or chain-linked values of GDP, exports, imports, household
+        consumption or domestic demand; no reference year found when the numeraire needs
+        one; a malformed CPI frame.
 
     Notes
     -----
@@ -116,6 +116,12 @@ def price_gaps(
     METHODS.md's pi_GDP - pi_DD = w_X (pi_X - pi_DD) - w_M (pi_M - pi_DD) + other, with
     K-share weights w = K_j/K_GDP. Two links combine as
     gap = gap_1 R_GDP,2 + R_DD,1 gap_2, part by part, so the parts add up to the gap.
+    First link (docs/derivations/first_link.md, section 6): the annual link of the second
+    year needs that year only; in the first year the ends are valued at that year's average
+    prices (`first_year_values`: K = C, a quarter at CLV C/CLV_y from its own chain-linked
+    values), so the gaps of the quarters within the first year, across its end and year on
+    year in the second year exist where the series compared have chain-linked values there
+    (a domestic demand summed from its parts has none: v is never summed).
 
     *CPI*: a monthly CPI enters as the mean of its levels over the quarter (common
     practice); growth gaps are differences of growth rates, not level ratios.
@@ -130,7 +136,8 @@ def price_gaps(
     if numeraire not in NUMERAIRES:
         raise ConfigError(f"price gaps: numeraire {numeraire!r} is not one of {', '.join(NUMERAIRES)}")
     wide = pivot_bases(levels)
-    _raise_non_positive(wide.loc[wide["item"].isin([GDP, EXPORTS, IMPORTS])], ("current", "chain_linked"))
+    positive = [GDP, EXPORTS, IMPORTS, HOUSEHOLD, DOMESTIC_DEMAND]
+    raise_nonpositive(wide.loc[wide["item"].isin(positive)], ("current", "chain_linked"))
     series = {"Z": _series(wide, hierarchy, GDP), "X": _series(wide, hierarchy, EXPORTS),
               "M": _series(wide, hierarchy, IMPORTS)}
     gaps, household = _gaps(wide, hierarchy, series)
@@ -152,32 +159,95 @@ def price_gaps(
 def _series(wide: pd.DataFrame, hierarchy: Hierarchy, item: str | None,
             parts: tuple[tuple[str, int], ...] | None = None) -> pd.DataFrame:
     """c, k, v of ``item``; current and previous-year values the panel lacks are filled with
-    the signed sum of its parts (from ``hierarchy`` unless given); v is never summed."""
+    the signed sum of its parts (from ``hierarchy`` unless given); v is never summed.
+
+    A part's own value is used where the panel has it, else the sum of the part's own parts,
+    and so on down the hierarchy; an item whose own rows cover every economy with both values
+    is used as it is. The sum is left missing where some part has no value. All the parts
+    needed are taken from the panel in one merge and summed with one group-by per depth of
+    the hierarchy over all of them (`_filled_from_parts`).
+    """
     cols = {"current": "c", "previous_year": "k", "chain_linked": "v"}
     own = wide.loc[wide["item"].eq(item), _KEYS + list(cols)].rename(columns=cols).reset_index(drop=True)
     if parts is None:
         parts = tuple((c.item, c.sign) for c in hierarchy.aggregates.get(item, ()))
-    complete = set(own["economy"]) >= set(wide["economy"]) and own[["c", "k"]].notna().all(axis=None)
-    if not parts or complete:
+    complete = _complete_items(wide)
+    if not parts or item in complete:
         return own
-    pieces = []
-    for sub, sign in parts:  # over hierarchy components, each vectorised over the panel
-        s = _series(wide, hierarchy, sub)
-        pieces.append(s.assign(c=sign * s["c"], k=sign * s["k"]))
-    g = pd.concat(pieces, ignore_index=True).groupby(_KEYS)[["c", "k"]]
-    summed = g.sum().where(g.count() == len(parts)).reset_index()
+    summed = _filled_from_parts(wide, _part_tree(hierarchy, parts, complete))
     m = own.merge(summed, on=_KEYS, how="outer", suffixes=("", "_sum"))
     return m.assign(c=m["c"].fillna(m["c_sum"]), k=m["k"].fillna(m["k_sum"]))[_KEYS + ["c", "k", "v"]]
 
 
+def _complete_items(wide: pd.DataFrame) -> set[str]:
+    """Items whose own rows cover every economy of the panel with current and previous-year values."""
+    full = wide[["current", "previous_year"]].notna().all(axis=1)
+    g = wide.assign(full=full).groupby("item").agg(n=("economy", "nunique"), full=("full", "all"))
+    return set(g.index[(g["n"] == wide["economy"].nunique()) & g["full"]])
+
+
+def _part_tree(hierarchy: Hierarchy, parts: tuple[tuple[str, int], ...], complete: set[str]) -> pd.DataFrame:
+    """The tree of parts below an item, one row per place of a node in it.
+
+    Columns ``pos`` (the place, numbered depth first in the order of the parts), ``parent``
+    (place of the aggregate it is a part of; -1 for the item's own parts), ``depth``,
+    ``node``, ``sign`` (its sign in that aggregate) and ``n_parts`` (its own parts in the
+    tree: none for a node without parts in ``hierarchy`` or a complete one, whose values
+    are used as they are). Built from the hierarchy alone (a few rows), never from the data.
+    """
+    rows: list[tuple[int, int, int, str, int]] = []
+    stack = [(-1, 1, sub, sign) for sub, sign in reversed(parts)]
+    while stack:  # depth first over the hierarchy's structure
+        parent, depth, node, sign = stack.pop()
+        pos = len(rows)
+        rows.append((pos, parent, depth, node, sign))
+        if node not in complete:
+            below = hierarchy.aggregates.get(node, ())
+            stack.extend((pos, depth + 1, c.item, c.sign) for c in reversed(below))
+    tree = pd.DataFrame(rows, columns=["pos", "parent", "depth", "node", "sign"])
+    return tree.assign(n_parts=tree["pos"].map(tree["parent"].value_counts()).fillna(0).astype("int64"))
+
+
+def _filled_from_parts(wide: pd.DataFrame, tree: pd.DataFrame) -> pd.DataFrame:
+    """Signed sums c_sum, k_sum of an item's parts, per economy and period.
+
+    One merge puts the panel's values on every place of the tree at once; the sums then
+    climb the tree one depth at a time, each depth one group-by over all its places
+    (bottom-up, as the aggregates are formed in ``sql/int_aggregate.sql``). A place keeps its
+    own value where the panel has one, else takes the signed sum of its parts when all of
+    them have a value. Keys: every economy and period where some place has a row.
+    """
+    vals = wide[[*_KEYS, "item", "current", "previous_year"]].rename(
+        columns={"item": "node", "current": "c", "previous_year": "k"})
+    places = tree.drop(columns="node")
+    at = tree.merge(vals, on="node")[[*places.columns, *_KEYS, "c", "k"]]
+    n_parts = pd.concat([pd.Series({-1: int(tree["parent"].eq(-1).sum())}), tree.set_index("pos")["n_parts"]])
+    for depth in range(int(tree["depth"].max()), 0, -1):  # over the tree's depth, not its nodes
+        level = at.loc[at["depth"].eq(depth)].sort_values(["pos", *_KEYS], kind="mergesort")
+        signed = level.assign(c=level["c"] * level["sign"], k=level["k"] * level["sign"])
+        g = signed.groupby(["parent", *_KEYS])[["c", "k"]]
+        total, count = g.sum(), g.count()
+        need = n_parts.reindex(total.index.get_level_values("parent")).to_numpy()[:, None]
+        sums = total.where(count.to_numpy() == need).reset_index().rename(columns={"parent": "pos"})
+        if depth == 1:
+            return sums.drop(columns="pos").rename(columns={"c": "c_sum", "k": "k_sum"})
+        up = at.loc[at["depth"].eq(depth - 1), ["pos", *_KEYS, "c", "k"]].merge(
+            sums, on=["pos", *_KEYS], how="outer", suffixes=("", "_sum"))
+        up = up.assign(c=up["c"].fillna(up["c_sum"]), k=up["k"].fillna(up["k_sum"]))
+        at = pd.concat([at.loc[at["depth"].lt(depth - 1)],
+                        places.merge(up[["pos", *_KEYS, "c", "k"]], on="pos")], ignore_index=True)
+    return pd.DataFrame(columns=[*_KEYS, "c_sum", "k_sum"])
+
+
 def _reference_years(z: pd.DataFrame, reference_year: int | None) -> pd.DataFrame:
-    """Reference year per economy: given, or where annual chain-linked GDP = current GDP."""
+    """Reference year per economy: given, or found in GDP's annual values (`reference_year_candidates`)."""
     if reference_year is not None:
         return pd.DataFrame({"economy": z["economy"].unique(), "ref": int(reference_year)})
     ann = z.loc[z["frequency"].eq("A")].dropna(subset=["c", "v"])
-    ann = ann.assign(dev=(ann["v"] / ann["c"] - 1.0).abs())
-    ann = ann.loc[ann["dev"] < REFERENCE_TOLERANCE].sort_values(["economy", "dev"], kind="mergesort")
-    return ann.drop_duplicates("economy")[["economy", "year"]].rename(columns={"year": "ref"})
+    levels = pd.concat([ann.assign(price_basis="current", value=ann["c"]),
+                        ann.assign(price_basis="chain_linked", value=ann["v"])], ignore_index=True)
+    found = reference_year_candidates(levels.assign(item=GDP)).drop_duplicates("economy")
+    return found.rename(columns={"year": "ref"})[["economy", "ref"]]
 
 
 def _rebase(df: pd.DataFrame, cols: list[str], refs: pd.DataFrame) -> pd.DataFrame:
@@ -260,15 +330,19 @@ def _gaps(wide: pd.DataFrame, hierarchy: Hierarchy, trade: dict[str, pd.DataFram
     """Growth gaps GDP vs domestic demand (split), household vs GDP; household growth."""
     series = {**trade, "HH": _series(wide, hierarchy, HOUSEHOLD),
               "DD": _series(wide, hierarchy, DOMESTIC_DEMAND, DOMESTIC_DEMAND_PARTS)}
-    ck = {k: v[_KEYS + ["c", "k"]].dropna() for k, v in series.items()}
+    # first years at their own average prices (from each series' own chain-linked values)
+    ck = {lab: first_year_values(s.dropna(subset=["c"]).assign(item=lab))[_KEYS + ["c", "k", "unpriced"]]
+          for lab, s in series.items()}
     o = ck["Z"]
-    for label, sign in (("DD", -1), ("X", -1), ("M", 1)):
+    for label, sign in (("DD", -1), ("X", -1), ("M", 1)):  # the rest of GDP at both price bases
         o = o.merge(ck[label], on=_KEYS, suffixes=("", "_j"))
-        o = o.assign(c=o["c"] + sign * o["c_j"], k=o["k"] + sign * o["k_j"]).drop(columns=["c_j", "k_j"])
+        o = o.assign(c=o["c"] + sign * o["c_j"], k=o["k"] + sign * o["k_j"],
+                     unpriced=o["unpriced"] | o["unpriced_j"]).drop(columns=["c_j", "k_j", "unpriced_j"])
     ck["O"] = o
     long = pd.concat([v.assign(item=k) for k, v in ck.items()], ignore_index=True)
     st = step_values(long)
-    w = st.loc[st["ok"]].set_index(_ROW + ["item"])[["ca1", "ka1", "cb1", "kb1", "ca2", "ka2", "cb2", "kb2"]]
+    keep = st["ok"] & ~st["unpriced"]
+    w = st.loc[keep].set_index(_ROW + ["item"])[["ca1", "ka1", "cb1", "kb1", "ca2", "ka2", "cb2", "kb2"]]
     w = w.unstack("item")
     nan = np.full(len(w), np.nan)
     arrays = {key: w[key].to_numpy(dtype="float64") for key in w.columns}

@@ -31,13 +31,13 @@ import pandas as pd
 import scipy.sparse as sp
 
 from valvol.errors import ConfigError, InputError, Problem
+from valvol.frames import period_label
 from valvol.methods.benchmark import (
     ON_NONPOSITIVE,
     YEAR_FROM_QUARTERS,
     check_choice,
     difference_gram,
     key_columns,
-    period_labels,
     require_columns,
     series_codes,
     series_problem,
@@ -98,7 +98,7 @@ def _arrange(components: pd.DataFrame, by: list[str]) -> _Layout:
     frame, sid, year, quarter, t, new, step = sorted_quarters(components, key, "component", "a component's")
     n = len(frame)
     if "period" not in frame.columns:
-        frame["period"] = period_labels(year, quarter)
+        frame["period"] = period_label(year, quarter).to_numpy()
     starts = np.flatnonzero(new)
     ends = np.r_[starts[1:], n] - 1
     series = frame.loc[starts, key].reset_index(drop=True)
@@ -124,7 +124,7 @@ def _arrange(components: pd.DataFrame, by: list[str]) -> _Layout:
     tq = t0[sys_q] + np.arange(int(nq.sum())) - qoff[sys_q]
     quarters = systems.take(sys_q).reset_index(drop=True)
     quarters["year"], quarters["quarter"] = tq // 4, tq % 4 + 1
-    quarters["period"] = period_labels(tq // 4, tq % 4 + 1)
+    quarters["period"] = period_label(tq // 4, tq % 4 + 1).to_numpy()
     quarters["sys"] = sys_q
     sys_e = sys_s[sid]
     return _Layout(frame, sid, qoff[sys_e] + t - t0[sys_e], series, systems, quarters, t0, qoff, nq)
@@ -251,7 +251,16 @@ def reconcile(components: pd.DataFrame, signs: Mapping[str, int], total: pd.Data
     aggregate of T_q over y. This is checked first; an inconsistent system is refused. Then
     one row per such year is dropped: the benchmark of the movable series with the largest
     |A_iy|. The quarterly identities therefore hold to rounding; a gap within the tolerance
-    shows up in that series' annual residual (``annual_residuals``).
+    shows up in that series' annual residual (``annual_residuals``). A year in which some
+    movable series has no benchmark (past the last one, typically) is not fully benchmarked:
+    nothing is checked or dropped for it, the series adds no temporal row for it, and its
+    quarters are bound only by the quarterly identities, the objective carrying each
+    series' movement on from its benchmarked quarters (when each series benchmarked on its
+    own already meets the identities, that is the result, so a proportional series keeps its
+    last benchmark-to-indicator ratio). Pass only
+    the years actually given: the sums of a year's own quarters as its benchmarks would hold
+    the extrapolated quarters to the indicator's level (and, with a total, usually make the
+    year inconsistent).
 
     Attribution (``constraint`` column): the adjustment splits exactly into
     ``adjustment_annual`` = (each movable series benchmarked on its own, same objective,

@@ -33,6 +33,7 @@ import pandas as pd
 from scipy import stats
 
 from valvol.errors import ConfigError, InputError, Problem
+from valvol.methods.reference_year import REFERENCE_TOLERANCE, reference_year_candidates
 
 #: Output columns of `revisions`.
 REVISION_COLUMNS = ["economy", "period", "frequency", "item", "measure", "earlier", "later", "revision",
@@ -42,8 +43,6 @@ SUMMARY_COLUMNS = ["n", "mr", "mar", "rmar", "rmsr", "sd", "t_stat", "critical_v
                    "test_convention"]
 #: Measures whose values depend on the reference year of the chain-linked volumes.
 REFERENCE_DEPENDENT = ("level_chain_linked", "deflator")
-#: Relative tolerance of "annual chain-linked = current" when finding the reference year.
-REFERENCE_TOLERANCE = 1e-6
 
 _KEY = ["economy", "period", "frequency", "item", "measure"]
 _SOURCES = {  # table -> (columns it must have, value column)
@@ -105,53 +104,6 @@ def long_measures(tables: Mapping[str, pd.DataFrame], *, vintage: str = "") -> p
     return d.dropna(subset=["value"]).drop(columns="table").reset_index(drop=True)
 
 
-def reference_years(levels: pd.DataFrame, *, tolerance: float = REFERENCE_TOLERANCE) -> pd.DataFrame:
-    """Reference year of the chain-linked volumes of each economy in one vintage.
-
-    Returns
-    -------
-    DataFrame
-        Columns economy, reference_year (Int64): the first-ranked year. Economies without any
-        matching year are absent.
-
-    Notes
-    -----
-    In the reference year r the annual chain-linked volume equals the value at current prices,
-    CLV_r = C_r (annual overlap, METHODS.md sections 1 and 2). A year matches an item when
-    |CLV_y / C_y - 1| < tolerance. Years rank by: B1GQ matches, then the number of matching
-    items, then the B1GQ deviation, then the year. Several years can tie for first (e.g. CLV = C
-    in every year); `reference_year_changes` compares all of them.
-    """
-    cand = _reference_candidates(levels, tolerance)
-    first = cand.drop_duplicates("economy")
-    return pd.DataFrame({"economy": first["economy"].astype(str),
-                         "reference_year": first["year"].astype("Int64")}).reset_index(drop=True)
-
-
-def _reference_candidates(levels: pd.DataFrame, tolerance: float) -> pd.DataFrame:
-    """Every year tied for first rank per economy (economy, year), best first."""
-    missing = [c for c in _SOURCES["levels"][0] if c not in levels.columns]
-    if missing:
-        raise InputError([Problem(file="levels", reason=f"table lacks column(s) {', '.join(missing)}")])
-    lv = levels.loc[levels["frequency"].eq("A") & levels["price_basis"].isin(["current", "chain_linked"]),
-                    ["economy", "period", "item", "price_basis", "value"]]
-    wide = lv.pivot_table(index=["economy", "period", "item"], columns="price_basis", values="value",
-                          aggfunc="first").reindex(columns=["current", "chain_linked"]).reset_index()
-    wide = wide.loc[wide["current"].ne(0) & wide["current"].notna() & wide["chain_linked"].notna()]
-    dev = (wide["chain_linked"] / wide["current"] - 1.0).abs()
-    gdp = wide["item"].eq("B1GQ")
-    y = pd.DataFrame({"economy": wide["economy"].astype(str), "year": wide["period"].str[:4].astype("int64"),
-                      "match": dev < tolerance, "gdp_match": gdp & (dev < tolerance),
-                      "gdp_dev": dev.where(gdp)})
-    y = y.groupby(["economy", "year"], as_index=False).agg(
-        gdp_match=("gdp_match", "any"), n_match=("match", "sum"), gdp_dev=("gdp_dev", "min"))
-    y = y.loc[y["gdp_match"] | y["n_match"].gt(0)]
-    y = y.sort_values(["economy", "gdp_match", "n_match", "gdp_dev", "year"],
-                      ascending=[True, False, False, True, True], kind="mergesort", ignore_index=True)
-    best = y.drop_duplicates("economy")[["economy", "gdp_match", "n_match"]]
-    return y.merge(best, on=["economy", "gdp_match", "n_match"], sort=False)[["economy", "year"]]
-
-
 def reference_year_changes(earlier: Mapping[str, pd.DataFrame], later: Mapping[str, pd.DataFrame],
                            *, tolerance: float = REFERENCE_TOLERANCE) -> pd.DataFrame:
     """Economies whose chain-linked reference year differs between two vintages.
@@ -164,7 +116,7 @@ def reference_year_changes(earlier: Mapping[str, pd.DataFrame], later: Mapping[s
         for first in one is tied for first in the other. Not found in either: not changed.
     """
     empty = pd.DataFrame({"economy": pd.Series(dtype="str"), "year": pd.Series(dtype="int64")})
-    ce, cl = (_reference_candidates(t["levels"], tolerance) if "levels" in t else empty
+    ce, cl = (reference_year_candidates(t["levels"], tolerance=tolerance) if "levels" in t else empty
               for t in (earlier, later))
     shared = ce.merge(cl, on=["economy", "year"])["economy"].unique()
     m = (ce.drop_duplicates("economy").merge(cl.drop_duplicates("economy"), on="economy", how="outer",

@@ -1,0 +1,3 @@
+-- Staging: the levels table staged once for the whole panel by the validate stage, reloaded
+-- for one chunk of economies (staged_rows, registered by valvol.staging).
+CREATE OR REPLACE TABLE levels AS SELECT * FROM staged_rows;
