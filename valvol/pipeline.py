@@ -372,8 +372,17 @@ def _executor(run: Run):
         return None
     from joblib.externals.loky import get_reusable_executor
 
-    _POOLS.append(get_reusable_executor(max_workers=workers, timeout=300))
+    _POOLS.append(get_reusable_executor(max_workers=workers, timeout=300, initializer=_keep_worker))
     return _POOLS[-1]
+
+
+def _keep_worker() -> None:
+    """Runs in each worker: a chunk's arrays leave the worker's memory grown by more than loky's
+    leak threshold (300 MB), after which loky would replace the worker (paying its start-up
+    again) for every chunk; chunks free what they use, so the check is lifted."""
+    from joblib.externals.loky import process_executor
+
+    process_executor._MAX_MEMORY_LEAK_SIZE = 1 << 62
 
 
 #: Pools started during the current run (shut down when it ends).
