@@ -44,3 +44,21 @@ def test_undeclared_columns_are_dropped_with_a_warning(tmp_path, caplog):
 def test_carried_columns_may_be_passed(tmp_path):
     raw, _ = read_accounts(_folder(tmp_path, 'carry_columns = ["obs_status"]\n'), ["conf_status"])
     assert list(raw.columns) == [*RAW_COLUMNS, "conf_status"]
+
+
+def test_plain_and_quoted_csv_read_alike(tmp_path):
+    """A file without quotes is read by pandas' parser, one with quotes by the standard library's:
+    the same rows, cells and line numbers either way (blank lines and CRLF line ends included)."""
+    lines = ["economy,period,item,price_basis,value", "XQ, 2020,P6,current,1.5", "", ",,,,",
+             "XQ,2021,P6,current,2"]
+    plain = tmp_path / "plain"
+    quoted = tmp_path / "quoted"
+    for folder, text in ((plain, "\r\n".join(lines) + "\r\n"),
+                         (quoted, "\n".join(lines[:-1] + ['XQ,2021,P6,"current",2']) + "\n")):
+        folder.mkdir()
+        (folder / "a.csv").write_text(text, newline="")
+    (a, pa_), (b, pb) = read_accounts(plain), read_accounts(quoted)
+    assert pa_ == pb == []
+    pd.testing.assert_frame_equal(a, b)
+    assert a["source_row"].tolist() == [2, 5]
+    assert a["period"].tolist() == ["2020", "2021"]

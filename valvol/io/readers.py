@@ -62,16 +62,16 @@ def _read_csv(path: Path, name: str) -> tuple[pd.DataFrame | None, list[Problem]
 
 def _plain_csv(text: str) -> pd.DataFrame | None:
     """The common file, read by pandas' C parser: no quotes, one record per line, every line
-    with as many cells as the header. None for any other file (`_quoted_csv` reads it and
-    names the lines at fault)."""
+    with as many cells as the header and shorter than a cell may be. None for any other file
+    (`_quoted_csv` reads it and names the lines at fault)."""
     text = text.replace("\r\n", "\n")
     if any(c in text for c in '"\r\0'):
         return None
     lines = text.split("\n")
     if lines and lines[-1] == "":
         lines.pop()
-    if not lines or not lines[0].strip(" \t,"):
-        return None  # an empty file or a blank first line
+    if not lines or not lines[0].strip(" \t,") or max(map(len, lines)) > csv.field_size_limit():
+        return None  # an empty file, a blank first line, a line too long for any cell limit
     header = next(csv.reader([lines[0]], skipinitialspace=True))
     cells = np.fromiter((line.count(",") for line in lines), dtype="int64", count=len(lines))
     if (cells != len(header) - 1).any() or len(lines) == 1:

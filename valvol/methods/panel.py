@@ -9,6 +9,7 @@ sign-changing item, the highest positive aggregate containing it; `problems_at` 
 from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
+from dataclasses import replace
 
 import numpy as np
 import pandas as pd
@@ -191,8 +192,10 @@ def nonpositive_problems(wide: pd.DataFrame, columns: Mapping[str, str],
     out: list[Problem] = []
     for col, basis in columns.items():
         bad = positive & (wide[col] <= 0).to_numpy()
-        out += problems_at(wide[bad], f"value {basis} is zero or negative in a series that must be "
-                           "positive (no ratio can be chained or weighted)", price_basis=basis)
+        why = ("its deflator (current / volume) is undefined and no ratio can be chained or weighted"
+               if basis in ("chain_linked", "previous_year") else "no ratio can be chained or weighted")
+        out += [replace(p, reason=f"{basis} value {v:g} is zero or negative in a series that must be positive: {why}")
+                for p, v in zip(problems_at(wide[bad], "", price_basis=basis), wide.loc[bad, col], strict=True)]
     return out
 
 
