@@ -50,43 +50,64 @@ def _read_csv(path: Path, name: str) -> tuple[pd.DataFrame | None, list[Problem]
     Blank lines (and lines of empty cells) are skipped without shifting line numbers; a line
     whose cells do not match the header in number is a problem of that line.
     """
+    data = path.read_bytes()
     try:
-        text = decode_utf8(path.read_bytes())
+        text = decode_utf8(data)
     except NotUTF8 as exc:
         return None, [Problem(file=name, row=exc.line, reason=exc.reason)]
-    fast = _plain_csv(text)
+    fast = _plain_csv(data)
     if fast is not None:
         return fast, []
     return _quoted_csv(text, name)
 
 
-def _plain_csv(text: str) -> pd.DataFrame | None:
-    """The common file, read by pandas' C parser: no quotes, one record per line, every line
+def _plain_csv(data: bytes) -> pd.DataFrame | None:
+    """The common file, parsed in C by pyarrow: no quotes, one record per line, every line
     with as many cells as the header and shorter than a cell may be. None for any other file
-    (`_quoted_csv` reads it and names the lines at fault)."""
-    text = text.replace("\r\n", "\n")
-    if any(c in text for c in '"\r\0'):
+    (`_quoted_csv` reads it and names the lines at fault). The checks run on the bytes with
+    numpy (UTF-8 never uses the bytes of ``,``, ``\\n`` and ``"`` inside a character)."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+    import pyarrow.csv as pacsv
+
+    if data.startswith(b"\xef\xbb\xbf"):
+        data = data[3:]
+    if any(c in data for c in (b'"', b"\r", b"\0")) or not data:
         return None
-    lines = text.split("\n")
-    if lines and lines[-1] == "":
-        lines.pop()
-    if not lines or not lines[0].strip(" \t,") or max(map(len, lines)) > csv.field_size_limit():
-        return None  # an empty file, a blank first line, a line too long for any cell limit
-    header = next(csv.reader([lines[0]], skipinitialspace=True))
-    cells = np.fromiter((line.count(",") for line in lines), dtype="int64", count=len(lines))
-    if (cells != len(header) - 1).any() or len(lines) == 1:
+    raw = np.frombuffer(data, dtype=np.uint8)
+    ends = np.flatnonzero(raw == ord("\n"))
+    if len(data) and data[-1:] != b"\n":
+        ends = np.r_[ends, len(data)]
+    starts = np.r_[0, ends[:-1] + 1]
+    if len(ends) < 2 or (ends - starts).max() > csv.field_size_limit():
+        return None  # a header alone, or a line too long for any cell limit
+    commas = np.flatnonzero(raw == ord(","))
+    cells = np.searchsorted(commas, ends) - np.searchsorted(commas, starts)
+    header = next(csv.reader([data[: ends[0]].decode("utf-8")], skipinitialspace=True))
+    if not "".join(header).strip(" \t") or (cells != len(header) - 1).any():
+        return None  # a blank first line, or a line (blank ones too) with the wrong number of cells
+    table = pacsv.read_csv(
+        io.BytesIO(data),
+        read_options=pacsv.ReadOptions(skip_rows=1, column_names=[str(i) for i in range(len(header))],
+                                       block_size=1 << 24),
+        parse_options=pacsv.ParseOptions(ignore_empty_lines=False),
+        convert_options=pacsv.ConvertOptions(column_types={str(i): pa.large_string() for i in range(len(header))},
+                                             strings_can_be_null=False, quoted_strings_can_be_null=False),
+    )
+    if table.num_rows != len(ends) - 1:
         return None
-    df = pd.read_csv(io.StringIO(text), header=None, skiprows=1, names=list(range(len(header))), dtype=str,
-                     keep_default_na=False, na_filter=False, skipinitialspace=True, skip_blank_lines=False,
-                     engine="c")
-    if len(df) != len(lines) - 1:
-        return None
-    df.columns = header
-    df.insert(0, "source_row", np.arange(2, 2 + len(df), dtype="int64"))
-    empty = np.ones(len(df), dtype=bool)
-    for i in range(len(header)):
-        empty &= df.iloc[:, i + 1].str.strip().eq("").to_numpy()
-    return df[~empty].reset_index(drop=True) if empty.any() else df
+    padded = data[:1].isspace() or any(s in data for s in (b" ,", b", ", b" \n", b"\n ", b"\t"))
+    columns = {h: pc.utf8_trim_whitespace(table.column(i)) if padded else table.column(i)
+               for i, h in enumerate(header)}
+    empty = None
+    for col in columns.values():
+        blank = pc.equal(col, "")
+        empty = blank if empty is None else pc.and_(empty, blank)
+    df = pd.DataFrame({"source_row": np.arange(2, 2 + table.num_rows, dtype="int64")}
+                      | {f"{i}": columns[h].to_pandas() for i, h in enumerate(header)})
+    df.columns = ["source_row", *header]
+    keep = ~empty.to_numpy(zero_copy_only=False)
+    return df[keep].reset_index(drop=True) if not keep.all() else df
 
 
 def _quoted_csv(text: str, name: str) -> tuple[pd.DataFrame | None, list[Problem]]:
