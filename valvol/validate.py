@@ -62,8 +62,24 @@ def parse_rows(raw: pd.DataFrame) -> pd.DataFrame:
     out["quarter"] = parts["quarter"]
     out["month"] = parts["month"]
     out["period"] = parts["period"]
-    out["value"] = pd.to_numeric(out["value_text"], errors="coerce").astype("float64")
+    out["value"] = parse_numbers(out["value_text"])
     return out
+
+
+def parse_numbers(text: pd.Series) -> pd.Series:
+    """Numbers from text, NaN where the text is not a number (located by the row rules later).
+
+    The whole column is parsed by Arrow's C parser at once; a column with any text that is not
+    a number is parsed again by pandas, value by value, so each bad cell becomes NaN alone.
+    """
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    try:
+        parsed = pc.cast(pa.array(text), pa.float64())
+        return pd.Series(parsed.to_numpy(zero_copy_only=False), index=text.index, dtype="float64")
+    except (pa.ArrowInvalid, pa.ArrowTypeError):
+        return pd.to_numeric(text, errors="coerce").astype("float64")
 
 
 def run_schema(schema: pa.DataFrameSchema, df: pd.DataFrame, *, locate: pd.DataFrame | None = None) -> list[Problem]:
