@@ -174,8 +174,9 @@ def validate(run: Run) -> None:
     problems = [Problem(**p) for p in json.loads((run.work / READ_PROBLEMS_FILE).read_text())]
     rows = workfiles.read_frame(run.work / ROWS_FILE)
     accounts, indexes, staged = validate_rows(rows, run.config, run.accounts_dir, problems)
-    workfiles.write_frame(run.work / VALIDATED_FILE, accounts)
-    workfiles.write_frame(run.work / INDEXES_FILE, indexes)
+    as_read = ["value_text", "period_text"]  # located problems read them from the rows file
+    workfiles.write_frame(run.work / VALIDATED_FILE, accounts.drop(columns=as_read, errors="ignore"))
+    workfiles.write_frame(run.work / INDEXES_FILE, indexes.drop(columns=as_read, errors="ignore"))
     if not reconciliation.enabled(run.config):  # else the derive chunks stage the adjusted rows
         for name, table in staged.items():
             workfiles.write_frame(run.work / STAGED_FILE.format(name), table)
