@@ -4,10 +4,10 @@
 
     load -> validate -> reconcile -> derive (one call per chunk of economies) -> check -> write -> publish
 
-``load``       every accounts file -> ``rows.parquet`` (parsed rows, with file and row)
-``validate``   row rules, keys, gaps, identities over the whole panel -> ``validated.parquet``
-``reconcile``  ``[benchmark]`` / ``[reconcile]``: adjusted ``validated.parquet`` and its report
-``derive``     one chunk of economies (contiguous in sorted order) -> ``chunks/<n>/<table>.parquet``;
+``load``       every accounts file -> ``rows.arrow`` (parsed rows, with file and row)
+``validate``   row rules, keys, gaps, identities over the whole panel -> ``validated.arrow``
+``reconcile``  ``[benchmark]`` / ``[reconcile]``: adjusted ``validated.arrow`` and its report
+``derive``     one chunk of economies (contiguous in sorted order) -> ``chunks/<n>/<table>.arrow``;
                chunks are independent, so they run anywhere (threads, a Dask cluster)
 ``check``      a check that fails anywhere in the panel stops the rebuild
 ``write``      the chunks' tables -> one ordered parquet file per table, revisions against
@@ -166,8 +166,8 @@ def validate(run: Run) -> None:
     """Check the parsed rows against the input contract over the whole panel.
 
     Every problem is collected (read problems, row rules, duplicate keys, gaps, identities,
-    quarters against years) and raised together; valid rows go to ``validated.parquet``
-    (accounts) and ``indexes.parquet`` (price indexes), the economies to ``economies.json``.
+    quarters against years) and raised together; valid rows go to ``validated.arrow``
+    (accounts) and ``indexes.arrow`` (price indexes), the economies to ``economies.json``.
     """
     from valvol.validate import validate_rows
 
@@ -190,7 +190,7 @@ def validate(run: Run) -> None:
 def reconcile(run: Run) -> None:
     """Benchmark and reconcile the validated rows as ``[benchmark]`` and ``[reconcile]`` ask.
 
-    Rewrites ``validated.parquet`` with the adjusted quarters and writes the
+    Rewrites ``validated.arrow`` with the adjusted quarters and writes the
     ``reconciliation`` report and its before/after checks (empty when not asked for).
     """
     if reconciliation.enabled(run.config):
@@ -270,7 +270,6 @@ def write(run: Run) -> None:
     parts = chunks(run)
     jobs = [(name, [_chunk_file(run, c, name) for c in parts], work / f"{name}.parquet") for name in TABLES]
     counts = dict(zip(TABLES, map_chunks(run, writers.combine_table, jobs), strict=True))
-    shutil.rmtree(work / CHUNKS_DIR, ignore_errors=True)
     small = {"reconciliation": workfiles.read_table(work / RECONCILIATION_FILE)}
     revised_against, revisions = _revisions_against_latest(run.out_dir, work)
     counts |= writers.write_tables(work, small | revisions)
@@ -279,13 +278,15 @@ def write(run: Run) -> None:
     writers.store_database(work, list(counts))
     status = pq.read_table(work / "checks.parquet", columns=["status"]).column("status").to_pandas()
     timings = _timings(work) | {"write": round(time.perf_counter() - started, 3)}
-    for name in work.iterdir():  # the work files of earlier stages
-        if name.suffix == ".arrow" or name.name in (READ_PROBLEMS_FILE, ECONOMIES_FILE, TIMINGS_FILE):
-            name.unlink()
     manifest = build_manifest(run.accounts_dir, run.config, counts, status.value_counts().to_dict(), timings,
                               options=options)
     manifest["charts"] = sorted(str(p.relative_to(work)) for p in drawn)
     manifest["revised_against"] = revised_against
+    # last, the work files of earlier stages: a write retried after a failure starts again from them
+    shutil.rmtree(work / CHUNKS_DIR, ignore_errors=True)
+    for name in work.iterdir():
+        if name.suffix == ".arrow" or name.name in (READ_PROBLEMS_FILE, ECONOMIES_FILE, TIMINGS_FILE):
+            name.unlink()
     (work / MANIFEST_FILE).write_text(json.dumps(manifest, indent=2, sort_keys=True) + "\n")
     log.info("write: %s", ", ".join(f"{t} ({n} rows)" for t, n in counts.items()))
     if drawn:
@@ -310,7 +311,7 @@ STAGES: tuple[Stage, ...] = (
     Stage("derive", derive, per_chunk=True),
     Stage("check", check),
     Stage("write", write, io=True),
-    Stage("publish", publish, io=True),
+    Stage("publish", publish),  # one rename: a retry after it could not find the work folder
 )
 
 

@@ -75,7 +75,9 @@ def price_gaps(
         left out.
     reference_year
         Year in which all deflators of the trading gain equal 1. If None, the year in which
-        the annual chain-linked GDP equals GDP at current prices (to 1e-6).
+        the annual chain-linked GDP equals GDP at current prices
+        (`valvol.methods.reference_year.reference_year_candidates`); with none found, the
+        deflators are taken as they are (current over chain-linked, not rebased).
 
     Returns
     -------

@@ -156,7 +156,8 @@ def revisions(earlier: dict[str, pd.DataFrame], later: dict[str, pd.DataFrame]) 
     R_t = L_t - P_t, L the later and P the earlier estimate of the same period and measure;
     a positive revision means the earlier estimate was too low. Growth rates and contributions
     are those published within each vintage, so their revisions are in percentage points.
-    The reference year is found by `reference_years`.
+    The reference year is found by `valvol.methods.reference_year.reference_year_candidates`
+    (every year tied for first rank), through `reference_year_changes`.
 
     References
     ----------
