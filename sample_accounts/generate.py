@@ -392,7 +392,7 @@ def _unit_values(products: pd.DataFrame) -> pd.DataFrame:
     -----
     P̄_{j,y} = Σ_s p_j(s,y)·q_j(s,y) / Σ_s q_j(s,y); an unweighted mean of the quarterly
     prices would make the quarters of y valued at P̄_{j,y} miss the annual value
-    (METHODS.md section 2.2, pitfalls).
+    (docs/methods.md section 2.2, pitfalls).
 
     References
     ----------
@@ -622,7 +622,7 @@ def _chain_link(levels: pd.DataFrame) -> pd.DataFrame:
     References
     ----------
     ABS 5216.0 (2020-21), ch.6 Annex, para. 6A.2, eq. (1); IMF, *Quarterly National Accounts
-    Manual*, 2017 Edition, section 8.4.D (annual overlap); METHODS.md sections 2.1-2.2.
+    Manual*, 2017 Edition, section 8.4.D (annual overlap); docs/methods.md sections 2.1-2.2.
     """
     chained = levels[levels["item"].isin(CHAINED)]
     annual = chained.groupby(["item", "year"])[["c", "k"]].sum(min_count=4).reset_index()
@@ -695,7 +695,7 @@ def consumer_price_index() -> pd.DataFrame:
     McCully, Moyer and Stewart, "Comparing the Consumer Price Index and the Personal Consumption
     Expenditures Price Index", *Survey of Current Business*, Nov 2007 (fixed basket, weights
     renewed every two years); ECB *Economic Bulletin* 1/2022, Eiglsperger et al. (no
-    owner-occupied housing in the HICP); valvol METHODS.md section 6.
+    owner-occupied housing in the HICP); valvol docs/methods.md section 6.
     """
     products = simulate_products()
     household = products[products["item"] == "P31_S14"]
@@ -783,7 +783,7 @@ def _income(products: pd.DataFrame, levels: pd.DataFrame, clv: pd.DataFrame, gdp
 
     References
     ----------
-    valvol METHODS.md section 4.2 (income side, Y = W + Π + T; unit profits as in ECB *Economic
+    valvol docs/methods.md section 4.2 (income side, Y = W + Π + T; unit profits as in ECB *Economic
     Bulletin* 6/2019, box by Hahn); the income approach to GDP of the SNA (common practice).
     """
     cur = levels[levels["year"] >= FIRST_YEAR].pivot(index="period", columns="item", values="c")

@@ -1,7 +1,7 @@
 -- Intermediate: implicit deflators = 100 * current / chain-linked volume (reference year = 100),
 -- annual from annual values (not the mean of quarterly deflators). None for sign-changing items
 -- ($sign_changing), residual items, or where either level is not positive.
--- Source: METHODS.md section 1 (BEA and ONS definitions of the implicit deflator).
+-- Source: docs/methods.md section 1 (BEA and ONS definitions of the implicit deflator).
 CREATE OR REPLACE TABLE deflators AS
 SELECT c.economy, c.item, c.frequency, c.year, c.quarter, c.period,
        100 * c.value / v.value AS deflator

@@ -2,7 +2,7 @@
 --   measure volume = chain-linked volume, value = current prices, price = implicit deflator;
 --   horizon prev_period: previous quarter (quarters) or previous year (years);
 --   horizon prev_year: same quarter a year earlier (quarters) or previous year (years).
--- Sign-changing items get no growth rate (METHODS.md sections 2.4 and 3.6).
+-- Sign-changing items get no growth rate (docs/methods.md sections 2.4 and 3.6).
 CREATE OR REPLACE TABLE growth AS
 WITH series AS (
     SELECT economy, item, frequency, year, quarter, period,

@@ -39,7 +39,7 @@ def accounts(tmp_path: Path):
 
 @pytest.fixture(scope="session")
 def prefect_harness(tmp_path_factory):
-    """One Prefect test server for the whole session (PLATFORM.md 1.4: ~18 s set-up)."""
+    """One Prefect test server for the whole session (docs/operations.md §4.2: ~18 s set-up)."""
     home = tmp_path_factory.mktemp("prefect-home")
     os.environ.setdefault("PREFECT_HOME", str(home))
     from valvol import prefect_env

@@ -57,7 +57,7 @@ def test_deflators_are_current_over_volume(demo_out):
     both = d.set_index(["period", "item"]).join(wide)
     assert ((both["deflator"] - 100 * both["current"] / both["chain_linked"]).abs() < 1e-9).all()
     assert not set(d["item"]) & {"P52", "P53", "YA1"}  # sign-changing: no deflator
-    # reference year 2020: the annual deflator is 100 (METHODS.md section 1)
+    # reference year 2020: the annual deflator is 100 (docs/methods.md section 1)
     ref = d.query("period == '2020'")
     assert ((ref["deflator"] - 100).abs() < 0.01).all()
 
@@ -84,7 +84,7 @@ def test_failed_rebuild_leaves_previous_outputs_intact(demo_dir, tmp_path):
 
 
 def test_fisher_index_needs_given_volumes(accounts, tmp_path):
-    # Fisher chains need each period's prices and quantities (METHODS.md 3.5): without given
+    # Fisher chains need each period's prices and quantities (docs/methods.md §3.5): without given
     # chain-linked volumes the rebuild stops with a located error (common practice)
     rows = "".join(f"XQ,2020-Q{q},P6,{b},{10 + q}\n" for q in range(1, 5) for b in ("current", "previous_year"))
     folder = accounts("economy,period,item,price_basis,value\n" + rows, '[volumes]\nindex = "fisher"\n')

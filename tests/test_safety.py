@@ -95,7 +95,7 @@ def test_invalid_input_leaves_outputs_untouched_from_the_cli(demo_dir, tmp_path)
 
 @pytest.mark.flow
 def test_scheduled_rebuild_fires_and_stops_cleanly(demo_dir, tmp_path):
-    """A real local Prefect server and a 10-second interval schedule (PLATFORM.md 1.6)."""
+    """A real local Prefect server and a 10-second interval schedule (docs/operations.md §5)."""
     out = tmp_path / "out"
     env = {k: v for k, v in os.environ.items() if not k.startswith("PREFECT_")}
     proc = subprocess.Popen([*CLI, "serve", str(demo_dir), "--out", str(out), "--interval", "10"],

@@ -1,7 +1,7 @@
 """Vintages, no-op rebuilds, pruning and revisions between releases (README, command line).
 
 Revision conventions: later minus earlier (OECD/Eurostat Guidelines on Revisions Policy and
-Analysis, via METHODS.md section 8).
+Analysis, via docs/methods.md section 8).
 """
 
 from __future__ import annotations

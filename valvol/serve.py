@@ -1,6 +1,6 @@
 """Scheduled rebuilds: serve the rebuild flow as a Prefect deployment on a cron or interval schedule.
 
-Prefect's ephemeral mode cannot schedule (PLATFORM.md 1.6), so without ``PREFECT_API_URL``
+Prefect's ephemeral mode cannot schedule (docs/operations.md §5), so without ``PREFECT_API_URL``
 this module starts and supervises a local Prefect server bound to 127.0.0.1 (SQLite in
 ``DIR/.prefect-server``), points the client at it, and stops it when serving ends; the
 server is also told to end with its parent (Linux ``PR_SET_PDEATHSIG``), so a killed

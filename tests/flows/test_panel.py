@@ -43,7 +43,7 @@ def test_thread_and_dask_runners_give_identical_tables(prefect_harness, demo_dir
     threads = tmp_path / "threads"
     assert rebuild_flow(str(accounts), str(threads), charts=False, return_state=True).is_completed()
 
-    # Dask worker processes report to the same test server (PLATFORM.md 1.7: never ephemeral servers)
+    # Dask worker processes report to the same test server (docs/operations.md §6: never ephemeral servers)
     os.environ["PREFECT_API_URL"] = PREFECT_API_URL.value()
     try:
         dask = tmp_path / "dask"

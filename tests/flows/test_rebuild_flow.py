@@ -1,4 +1,4 @@
-"""The Prefect rebuild flow, end to end under one session-wide test harness (PLATFORM.md 1.4)."""
+"""The Prefect rebuild flow, end to end under one session-wide test harness (docs/operations.md §4.2)."""
 
 from __future__ import annotations
 

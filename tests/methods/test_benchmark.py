@@ -5,8 +5,8 @@ External oracle: IMF, *Quarterly National Accounts Manual, 2017 Edition*, Exampl
 fisher_chain_denton_worked_example.csv; provenance in tests/reference_data/README.md).
 Independent solves: the Denton objective (Denton 1971, JASA 66(333), with the Cholette 1984
 modification, Survey Methodology 10) as a dense KKT system with numpy, and the Chow-Lin GLS
-formulas (Chow & Lin 1971, REStat 53(4)) with dense matrices, both as written in METHODS.md
-7.1 and 7.2. The other checks are the properties METHODS.md 7.1/7.2 marks [DERIVED].
+formulas (Chow & Lin 1971, REStat 53(4)) with dense matrices, both as written in docs/methods.md
+7.1 and 7.2. The other checks are the properties docs/methods.md §7.1/7.2 marks [DERIVED].
 """
 
 from __future__ import annotations
@@ -84,7 +84,7 @@ def test_imf_qna_2017_example_8_8_average(example_8_8):
     ind, bench, published = example_8_8
     out = denton(ind, bench, method="proportional", year_from_quarters="mean")
     np.testing.assert_allclose(out["value"], published, atol=0.02, rtol=0)
-    # METHODS.md 10(b) [DERIVED] values from the printed figures (2 decimals)
+    # docs/methods.md §10(b) [DERIVED] values from the printed figures (2 decimals)
     derived = [100.74, 100.66, 100.72, 101.04, 101.19, 101.24, 101.82, 102.91, 103.71, 104.27, 104.22, 104.04]
     np.testing.assert_allclose(out["value"], derived, atol=0.005 + 1e-9, rtol=0)
 
@@ -103,7 +103,7 @@ def test_imf_qna_2017_example_8_8_sum_of_four(example_8_8):
 @pytest.mark.parametrize("how", list(YEAR_FROM_QUARTERS))
 @pytest.mark.parametrize("method", ["proportional", "additive"])
 def test_sparse_panel_agrees_with_dense_kkt(method, how):
-    """Denton (1971) / Cholette (1984) objective, METHODS.md 7.1 KKT system, dense numpy solve:
+    """Denton (1971) / Cholette (1984) objective, docs/methods.md §7.1 KKT system, dense numpy solve:
     the sparse panel solve agrees to 1e-9 (relative), series of different lengths, a benchmark
     year missing in the middle, quarters before the first and after the last benchmark."""
     rng = np.random.default_rng(7)
@@ -128,7 +128,7 @@ def test_sparse_panel_agrees_with_dense_kkt(method, how):
 
 
 def test_extrapolation_keeps_the_end_ratio_or_difference_flat():
-    """METHODS.md 7.1 [DERIVED]: past the last benchmark the BI ratio (PFD) or X - I (AFD) stays
+    """docs/methods.md §7.1 [DERIVED]: past the last benchmark the BI ratio (PFD) or X - I (AFD) stays
     at the last benchmarked quarter's value; likewise before the first benchmark."""
     rng = np.random.default_rng(3)
     i = random_indicator(rng, 24)  # 2000..2005
@@ -241,7 +241,7 @@ def random_panel(seed, nseries, nyears, how):
 @SETTINGS
 @given(panels)
 def test_annual_constraints_hold_exactly(p):
-    """METHODS.md 7.1 [DERIVED]: the benchmarked quarters aggregate to the benchmarks (1e-9 rel.)."""
+    """docs/methods.md §7.1 [DERIVED]: the benchmarked quarters aggregate to the benchmarks (1e-9 rel.)."""
     seed, nseries, nyears, how, method = p
     ind, bench = random_panel(seed, nseries, nyears, how)
     out = denton(ind, bench, method=method, year_from_quarters=how)
@@ -252,7 +252,7 @@ def test_annual_constraints_hold_exactly(p):
 @SETTINGS
 @given(panels)
 def test_indicator_proportional_to_benchmarks_gives_pro_rata(p):
-    """METHODS.md 7.1 [DERIVED]: benchmarks = k x aggregated indicator (PFD) give X = k I (also
+    """docs/methods.md §7.1 [DERIVED]: benchmarks = k x aggregated indicator (PFD) give X = k I (also
     in the extrapolated quarters); for AFD, benchmarks = aggregated (I + c) give X = I + c."""
     seed, nseries, nyears, how, method = p
     ind, _ = random_panel(seed, nseries, nyears, how)
@@ -271,7 +271,7 @@ def test_indicator_proportional_to_benchmarks_gives_pro_rata(p):
 @SETTINGS
 @given(panels, st.floats(1e-3, 1e4))
 def test_scaling_the_indicator_changes_nothing(p, factor):
-    """METHODS.md 7.1 [DERIVED]: PFD results do not depend on the scale of the indicator."""
+    """docs/methods.md §7.1 [DERIVED]: PFD results do not depend on the scale of the indicator."""
     seed, nseries, nyears, how, _ = p
     ind, bench = random_panel(seed, nseries, nyears, how)
     base = denton(ind, bench, year_from_quarters=how)
@@ -333,7 +333,7 @@ def test_levels_panel_keys():
 
 
 def dense_chow_lin(i, years, bench, y0, rho, constant=True, how="total"):
-    """METHODS.md 7.2 formulas with dense matrices (Chow & Lin 1971)."""
+    """docs/methods.md §7.2 formulas with dense matrices (Chow & Lin 1971)."""
     T = len(i)
     X = np.column_stack([np.ones(T), i]) if constant else i[:, None]
     C = np.zeros((len(years), T))
@@ -368,7 +368,7 @@ def chow_lin_case(seed, nyears=10, extra=3, phi=0.6):
 @pytest.mark.parametrize("how", ["total", "mean", "q4"])
 @pytest.mark.parametrize("rho", [-0.5, 0.0, 0.45, 0.9])
 def test_chow_lin_fixed_rho_agrees_with_dense_gls(rho, how):
-    """Chow & Lin (1971) GLS formulas of METHODS.md 7.2 with dense matrices: same fit, beta and
+    """Chow & Lin (1971) GLS formulas of docs/methods.md §7.2 with dense matrices: same fit, beta and
     log-likelihood to 1e-9, including three extrapolated quarters."""
     i, years, bench = chow_lin_case(11)
     bench = bench / 4 if how == "mean" else bench
@@ -383,7 +383,7 @@ def test_chow_lin_fixed_rho_agrees_with_dense_gls(rho, how):
 @SETTINGS
 @given(st.integers(0, 10_000), st.integers(3, 8), st.booleans())
 def test_chow_lin_rho_zero_is_ols_plus_even_spread(seed, nyears, constant):
-    """METHODS.md 7.2 [DERIVED]: at rho = 0, for flows, the result is the OLS fit on the annual
+    """docs/methods.md §7.2 [DERIVED]: at rho = 0, for flows, the result is the OLS fit on the annual
     data plus each year's residual spread evenly over its four quarters."""
     i, years, bench = chow_lin_case(seed, nyears, extra=0)
     out, params = chow_lin(quarterly("S", 2000, i), annual("S", years, bench), rho=0.0, constant=constant)
@@ -399,7 +399,7 @@ def test_chow_lin_rho_zero_is_ols_plus_even_spread(seed, nyears, constant):
 @SETTINGS
 @given(st.integers(0, 10_000), st.floats(-0.95, 0.95), st.sampled_from(list(YEAR_FROM_QUARTERS)))
 def test_chow_lin_fixed_rho_meets_annual_constraints(seed, rho, how):
-    """METHODS.md 7.2: with a fixed rho the disaggregated quarters aggregate to the benchmarks."""
+    """docs/methods.md §7.2: with a fixed rho the disaggregated quarters aggregate to the benchmarks."""
     ind, bench = random_panel(seed, 2, 5, how)
     out, params = chow_lin(ind, bench, rho=rho, year_from_quarters=how)
     got = aggregate(out, how).reindex(pd.MultiIndex.from_frame(bench[["series", "year"]])).to_numpy()
@@ -408,7 +408,7 @@ def test_chow_lin_fixed_rho_meets_annual_constraints(seed, rho, how):
 
 
 def test_chow_lin_estimated_rho_maximises_the_likelihood():
-    """METHODS.md 7.2: rho by maximum likelihood; the estimate beats a fine grid of the dense
+    """docs/methods.md §7.2: rho by maximum likelihood; the estimate beats a fine grid of the dense
     concentrated log-likelihood, and a panel of series is estimated series by series."""
     cases = [chow_lin_case(s, nyears=16, phi=0.7) for s in (1, 2, 3)]
     ind = pd.concat([quarterly(f"S{k}", 2000, c[0]) for k, c in enumerate(cases)])

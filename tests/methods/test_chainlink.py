@@ -1,8 +1,8 @@
 """Tests of valvol.methods.chainlink.
 
 External oracles: the ONS Quarterly National Accounts release of 31 March 2023
-(tests/reference_data/uk_ons_qna_2023-03-31.csv). Formulas: METHODS.md sections 1, 2.1-2.4
-(QNA 2017 ch. 8; ABS 5216.0 ch. 6). Properties are marked [DERIVED] as in METHODS.md.
+(tests/reference_data/uk_ons_qna_2023-03-31.csv). Formulas: docs/methods.md sections 1, 2.1-2.4
+(QNA 2017 ch. 8; ABS 5216.0 ch. 6). Properties are marked [DERIVED] as in docs/methods.md.
 """
 
 from __future__ import annotations
@@ -70,9 +70,9 @@ def test_uk_annual_overlap_rebuilds_published_volumes(uk_for_chaining, uk_publis
 
 
 def test_uk_first_year_quarters(uk_for_chaining, uk_published):
-    """First year 1995 (no PYP): annual volume from the 1996 link (METHODS.md 2.1), equal to
+    """First year 1995 (no PYP): annual volume from the 1996 link (docs/methods.md §2.1), equal to
     the published 1995 volume (ONS QNA 31 March 2023); quarters valued at 1995 average
-    prices from current values: CLV(s,1995) = c(s,1995) CLV_1995 / C_1995 (METHODS.md 2.2)."""
+    prices from current values: CLV(s,1995) = c(s,1995) CLV_1995 / C_1995 (docs/methods.md §2.2)."""
     ch = chain_link(uk_for_chaining, hierarchy=UK_HIERARCHY, reference_year=2019)
     clv95 = _value(ch, "B1GQ", 1995)
     assert clv95 == pytest.approx(_value(uk_published[uk_published["price_basis"] == "chain_linked"],
@@ -86,10 +86,10 @@ def test_uk_first_year_quarters(uk_for_chaining, uk_published):
 
 
 def test_uk_additivity_pattern_of_rebuilt_volumes(uk_for_chaining):
-    """METHODS.md 2.3 [DERIVED]: under annual overlap the annual values and the quarters of
+    """docs/methods.md §2.3 [DERIVED]: under annual overlap the annual values and the quarters of
     r+1 add up (r = 2019; the series start in 1995, so the quarters of r do not). In r the
     positive series have CLV_r = C_r, the sign-changing ones k_i CLV^Z_{r-1}/C^Z_{r-1}
-    (METHODS.md 2.4 convention), so the annual residual of r is the signed sum of
+    (docs/methods.md §2.4 convention), so the annual residual of r is the signed sum of
     C_i,r - CLV_i,r over the sign-changing items (here only YA1, which closes the PYP
     identity: P52 and P53 were valued at GDP's deflator)."""
     ch = chain_link(uk_for_chaining, hierarchy=UK_HIERARCHY, reference_year=2019)
@@ -110,7 +110,7 @@ def test_uk_published_nonadditivity_pattern(uk_published):
     """ONS QNA release of 31 March 2023, chained volumes (reference year 2019): GDP minus the
     signed sum of its expenditure components is zero in the annual values of 2019 on and in
     the quarters from 2020-Q1 on, within the rounding of ten published values (+-5), and
-    clearly not in the quarters of 2019 (METHODS.md 1 and 2.3 [DERIVED; reproduces published
+    clearly not in the quarters of 2019 (docs/methods.md §1 and 2.3 [DERIVED; reproduces published
     figures])."""
     res = nonadditivity_residual(uk_published, UK_HIERARCHY)
     annual = res[res["frequency"] == "A"].set_index("year")["value"]
@@ -124,7 +124,7 @@ def test_uk_published_nonadditivity_pattern(uk_published):
 def test_uk_rereference_to_2022_reproduces_published_deflator(uk_published, uk_raw):
     """ONS QNA release of 31 March 2023: the GDP implied deflator at 2022 = 100 (measure
     implicit_deflator_ref2022, 4 decimals) is, quarter by quarter, 100 x CP / CVM with CVM
-    re-referenced to 2022, within 5e-4 (METHODS.md 1 [DERIVED; reproduces published
+    re-referenced to 2022, within 5e-4 (docs/methods.md §1 [DERIVED; reproduces published
     figures]). The file's annual values of that measure are the means of its quarterly
     values rounded to 4 decimals (checked below), so they are compared with the mean of ours."""
     chained = uk_published[uk_published["price_basis"] == "chain_linked"]
@@ -146,7 +146,7 @@ def test_uk_rereference_to_2022_reproduces_published_deflator(uk_published, uk_r
 
 
 def test_uk_techniques_agree_on_own_deflator_components(uk_for_chaining):
-    """METHODS.md 2.2 [DERIVED]: for series whose PYP are own-deflator links (the UK positive
+    """docs/methods.md §2.2 [DERIVED]: for series whose PYP are own-deflator links (the UK positive
     components as derived here, k = P_{y-1} q for a single price) the three techniques give
     identical series; the GDP aggregate differs (its quarters are not one price)."""
     out = {m: chain_link(uk_for_chaining, hierarchy=UK_HIERARCHY, reference_year=2019, method=m)
@@ -161,7 +161,7 @@ def test_uk_techniques_agree_on_own_deflator_components(uk_for_chaining):
 
 # --------------------------------------------------------------------- hand-checked cases
 def test_annual_links_hand_example():
-    """METHODS.md 2.1: L_y = K_y / C_{y-1}; CLV_r = C_r; forward and backward."""
+    """docs/methods.md §2.1: L_y = K_y / C_{y-1}; CLV_r = C_r; forward and backward."""
     h = Hierarchy.from_mapping({"T": ["X"]})
     lv = _rows([("E", "X", "current", 2020, 0, 100), ("E", "X", "current", 2021, 0, 120),
                 ("E", "X", "current", 2022, 0, 150), ("E", "X", "previous_year", 2021, 0, 110),
@@ -189,7 +189,7 @@ def test_default_reference_year_is_per_economy(make_panel):
 
 
 def test_one_quarter_and_over_the_year_against_direct_formulas(make_panel):
-    """METHODS.md 2.2: one-quarter overlap CLV(s,y) = k(s,y) CLV(4,y-1)/k^{(y-1)}(4,y-1) and
+    """docs/methods.md §2.2: one-quarter overlap CLV(s,y) = k(s,y) CLV(4,y-1)/k^{(y-1)}(4,y-1) and
     over-the-year CLV(s,y) = CLV(s,y-1) k(s,y)/k^{(y-1)}(s,y-1), with k^{(y-1)} the quarter
     valued at the average prices of y-1 (sum of P_{y-1} q over the elementary items),
     computed here directly from prices and quantities; the first link is annual overlap."""
@@ -241,7 +241,7 @@ def test_overlap_quarters_scaled_to_reference_year(make_panel):
 
 
 def test_sign_changing_item_uses_top_aggregate_deflator():
-    """METHODS.md 2.4 (option (c) variant, common practice): CLV_i(t) = k_i(t) CLV^Z_{y-1}/C^Z_{y-1}
+    """docs/methods.md §2.4 (option (c) variant, common practice): CLV_i(t) = k_i(t) CLV^Z_{y-1}/C^Z_{y-1}
     with Z the top aggregate containing the item (B1GQ, not P5, for P52); first year c_i CLV^Z_y/C^Z_y."""
     h = Hierarchy.default()
     spec = []
@@ -313,7 +313,7 @@ def test_zero_previous_year_quarter_is_located(make_panel):
 
 
 def test_one_quarter_overlap_missing_q4_is_located(make_panel):
-    """METHODS.md 2.2: one-quarter overlap needs Q4 of y-1 at y-1 prices: an error naming the
+    """docs/methods.md §2.2: one-quarter overlap needs Q4 of y-1 at y-1 prices: an error naming the
     series and the year whose quarters cannot be linked."""
     h = Hierarchy.from_mapping({"T": ["X"]})
     lv = make_panel({"X": np.linspace(1, 2, 16)}, {"X": np.linspace(5, 9, 16)}, h)
@@ -377,7 +377,7 @@ def _economies(make_panel, seed, n, hierarchy, spec, n_econ=3, **kw):
 @given(seed=st.integers(0, 2**32 - 1), n=st.sampled_from([12, 16, 20]), fy=st.booleans(),
        r_offset=st.integers(0, 2))
 def test_elementary_series_techniques_coincide(make_panel, seed, n, fy, r_offset):
-    """METHODS.md 2.2 [DERIVED]: for a single elementary series (k = P_{y-1} q) the three
+    """docs/methods.md §2.2 [DERIVED]: for a single elementary series (k = P_{y-1} q) the three
     techniques give identical series; with PYP in the first year CLV = P_r q exactly."""
     h = Hierarchy.from_mapping({"T": ["X"]})
     panels = _economies(make_panel, seed, n, h, {"X": (0.5, 2.0, 1.0, 50.0)}, first_year_pyp=fy)
@@ -398,7 +398,7 @@ def test_elementary_series_techniques_coincide(make_panel, seed, n, fy, r_offset
 @PROPS
 @given(seed=st.integers(0, 2**32 - 1), n=st.sampled_from([12, 16]), annual_rate=st.booleans())
 def test_annual_overlap_quarters_add_up_to_annual(make_panel, seed, n, annual_rate):
-    """METHODS.md 2.2 [DERIVED]: annual-overlap quarters sum to the annual CLV (average to it
+    """docs/methods.md §2.2 [DERIVED]: annual-overlap quarters sum to the annual CLV (average to it
     when levels are at annual rate), aggregates and sign-changing items included."""
     h = Hierarchy.from_mapping({"T": ["A", "B", "P52", "-M"], "B": ["B1", "B2"]})
     spec = {"A": (0.8, 1.2, 30, 40), "B1": (0.8, 1.2, 5, 10), "B2": (0.8, 1.2, 5, 10),
@@ -415,7 +415,7 @@ def test_annual_overlap_quarters_add_up_to_annual(make_panel, seed, n, annual_ra
 @PROPS
 @given(seed=st.integers(0, 2**32 - 1), new_r=st.integers(2000, 2003))
 def test_rereferencing_keeps_growth_rates(make_panel, seed, new_r):
-    """METHODS.md 1 [DERIVED]: re-referencing leaves growth rates unchanged (one factor per
+    """docs/methods.md §1 [DERIVED]: re-referencing leaves growth rates unchanged (one factor per
     series) and sets the new reference year's annual volume to its current-price value."""
     h = Hierarchy.from_mapping({"T": ["A", "-M"]})
     lv = pd.concat([x[0] for x in _economies(make_panel, seed, 16, h, {"A": (0.8, 1.2, 30, 40),

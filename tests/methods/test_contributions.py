@@ -3,7 +3,7 @@
 External oracles: ONS Quarterly National Accounts, release of 31 March 2023
 (tests/reference_data/uk_ons_qna_2023-03-31.csv), and Statistics Canada, *User Guide:
 Canadian System of Macroeconomic Accounts* (13-017-X, 2008), Table 2.12 (files
-tests/reference_data/fisher_contributions_worked_example*.csv). Formulas: METHODS.md 3.1-3.7.
+tests/reference_data/fisher_contributions_worked_example*.csv). Formulas: docs/methods.md §3.1-3.7.
 """
 
 from __future__ import annotations
@@ -77,7 +77,7 @@ def _uk_ours(panel: pd.DataFrame, convention: str) -> pd.DataFrame:
     c = pd.concat([c, bi], ignore_index=True)
     wide = c.set_index(["period", "horizon", "item"])["contribution_pp"].unstack("item")
     wide["B11"] = wide["P6"] + wide["P7"]  # both already signed: P6 - P7 to GDP
-    wide["P7"] = -wide["P7"]  # published: positive when imports rise (METHODS.md 3.7)
+    wide["P7"] = -wide["P7"]  # published: positive when imports rise (docs/methods.md §3.7)
     return wide.stack().rename("ours").reset_index()
 
 
@@ -92,7 +92,7 @@ def test_uk_prior_year_weights_reproduce_published_contributions(uk_published, u
     """ONS QNA release of 31 March 2023, contributions to GDP volume growth (q/q, y/y and
     annual; households, NPISH, government, GFCF, business investment, exports, imports and
     B11; GCF excluded as the reference README says): the prior_year_weights convention
-    (METHODS.md 3.4) from published current prices and chained volumes reproduces every
+    (docs/methods.md §3.4) from published current prices and chained volumes reproduces every
     published value within +-0.005 plus the effect of the rounding of the published volumes
     (UK_TOL); at least 99% within +-0.005 itself."""
     got = _uk_published(uk_raw).merge(_uk_ours(uk_published, "prior_year_weights"),
@@ -105,7 +105,7 @@ def test_uk_prior_year_weights_reproduce_published_contributions(uk_published, u
 
 
 def test_uk_annual_overlap_exact_matches_published_within_year_and_annual(uk_for_chaining, uk_raw):
-    """METHODS.md 3.4 [DERIVED]: within a year (q/q for Q2-Q4) and annually, annual_overlap_exact equals
+    """docs/methods.md §3.4 [DERIVED]: within a year (q/q for Q2-Q4) and annually, annual_overlap_exact equals
     prior_year_weights, so on the UK previous-year prices (derived as the reference README
     explains) it reproduces the published q/q and annual contributions of the positive
     components (ONS QNA release of 31 March 2023) within UK_TOL."""
@@ -120,7 +120,7 @@ def test_uk_annual_overlap_exact_matches_published_within_year_and_annual(uk_for
 
 
 def test_uk_annual_overlap_exact_is_additive(uk_for_chaining):
-    """METHODS.md 3.3 [DERIVED]: on annual-overlap data additive at both price bases the
+    """docs/methods.md §3.3 [DERIVED]: on annual-overlap data additive at both price bases the
     annual_overlap_exact contributions add up to GDP growth: residual within 1e-9 for all horizons."""
     ch = chain_link(uk_for_chaining, hierarchy=UK_HIERARCHY, reference_year=2019)
     out = volume_contributions(pd.concat([uk_for_chaining, ch]), hierarchy=UK_HIERARCHY)
@@ -130,7 +130,7 @@ def test_uk_annual_overlap_exact_is_additive(uk_for_chaining):
 
 
 def test_uk_prior_year_weights_not_additive_across_year_boundary(uk_published):
-    """METHODS.md 3.4: prior_year_weights add up within a year but not across the year
+    """docs/methods.md §3.4: prior_year_weights add up within a year but not across the year
     boundary; the residual is reported (ONS QNA release of 31 March 2023 data)."""
     out = volume_contributions(uk_published[uk_published["item"] != "P51G_BI"], hierarchy=UK_HIERARCHY,
                                convention="prior_year_weights")
@@ -165,7 +165,7 @@ def test_statcan_fisher_contributions(statcan):
                        ("weight_w2", "weight_w2")):
             assert wts.loc[("t3", item), col] == pytest.approx(_pub(pub, q, item)["t3"], abs=0.005), (item, col)
         assert wts.loc[("t3", item), "contribution_pp"] == pytest.approx(ctr.loc["t3", item], abs=1e-12)
-    # additive: the contributions add up to the Fisher volume growth (METHODS.md 3.5)
+    # additive: the contributions add up to the Fisher volume growth (docs/methods.md §3.5)
     rel = index_relatives(x, p)
     np.testing.assert_allclose(ctr.iloc[1:].sum(axis=1), 100 * (rel["fisher_volume"].iloc[1:] - 1), atol=1e-12)
 
@@ -173,7 +173,7 @@ def test_statcan_fisher_contributions(statcan):
 def test_statcan_indexes(statcan):
     """Statistics Canada 13-017-X (2008), Table 2.12: unlinked Laspeyres, Paasche and Fisher
     volume indexes of the total, linked Fisher volume indexes of the total and of AB and CD
-    (1 decimal, +-0.05; volume indexes, METHODS.md 10a)."""
+    (1 decimal, +-0.05; volume indexes, docs/methods.md §10(a))."""
     x, p, pub = statcan
     checks = {"laspeyres_volume_unlinked": laspeyres_index(x, p), "paasche_volume_unlinked": paasche_index(x, p),
               "fisher_volume_unlinked": fisher_index(x, p), "fisher_volume_linked": chain_index(fisher_index(x, p))}
@@ -202,7 +202,7 @@ def test_statcan_real_values_referenced_to_t1(statcan):
 
 
 def test_statcan_price_contributions(statcan):
-    """METHODS.md 3.5 price side [DERIVED on the Statistics Canada 13-017-X Table 2.12 data]:
+    """docs/methods.md §3.5 price side [DERIVED on the Statistics Canada 13-017-X Table 2.12 data]:
     the price contributions add up exactly to 100 (P^F - 1); replicated t3 values
     -4.4108, 0.0000, 3.7430, -2.7393 (sum -3.4071)."""
     x, p, _ = statcan
@@ -253,7 +253,7 @@ def _quarterly_panel(make_panel, seed, n=12, n_econ=3, annual_rate=False):
 
 
 def test_sign_changing_level_difference_contribution(make_panel):
-    """METHODS.md 3.6: inventories get level-difference contributions, 100 (k(t) - k(t-1)) /
+    """docs/methods.md §3.6: inventories get level-difference contributions, 100 (k(t) - k(t-1)) /
     k^Z(t-1) within a year, annually 100 (K_y - C_{y-1}) / C^Z_{y-1}."""
     panel, h = _quarterly_panel(make_panel, 11, n_econ=1)
     out = volume_contributions(panel, hierarchy=h).set_index(["aggregate", "item", "period", "horizon"])
@@ -292,7 +292,7 @@ def test_errors():
 @PROPS
 @given(seed=st.integers(0, 2**32 - 1), annual_rate=st.booleans())
 def test_annual_overlap_exact_contributions_add_up(make_panel, seed, annual_rate):
-    """METHODS.md 3.1-3.3 [DERIVED]: on random positive annual-overlap panels (3 economies,
+    """docs/methods.md §3.1-3.3 [DERIVED]: on random positive annual-overlap panels (3 economies,
     a 2-level hierarchy with imports and inventories) the annual_overlap_exact contributions add up to
     the aggregate's chain-linked growth for every horizon: residual < 1e-9."""
     panel, h = _quarterly_panel(make_panel, seed, annual_rate=annual_rate)
@@ -305,7 +305,7 @@ def test_annual_overlap_exact_contributions_add_up(make_panel, seed, annual_rate
 @PROPS
 @given(seed=st.integers(0, 2**32 - 1))
 def test_prior_year_weights_equal_annual_overlap_exact_within_year(make_panel, seed):
-    """METHODS.md 3.4 [DERIVED]: within a year (q/q of Q2-Q4) and annually prior_year_weights
+    """docs/methods.md §3.4 [DERIVED]: within a year (q/q of Q2-Q4) and annually prior_year_weights
     equal the exact annual_overlap_exact contributions for positive components."""
     panel, h = _quarterly_panel(make_panel, seed)
     key = ["economy", "aggregate", "item", "period", "horizon"]
@@ -321,7 +321,7 @@ def test_prior_year_weights_equal_annual_overlap_exact_within_year(make_panel, s
 @PROPS
 @given(seed=st.integers(0, 2**32 - 1))
 def test_fisher_contributions_add_up_to_fisher_growth(seed):
-    """METHODS.md 3.5 [DERIVED]: Fisher contributions (imports as negative quantities) add up
+    """docs/methods.md §3.5 [DERIVED]: Fisher contributions (imports as negative quantities) add up
     to 100 (Q^F - 1); price contributions to 100 (P^F - 1); P^F Q^F = V_t / V_{t-1}."""
     rng = np.random.default_rng(seed)
     x = pd.DataFrame(rng.uniform(10, 50, (6, 4)), columns=list("ABCM"))

@@ -7,7 +7,7 @@ External oracles:
   Fisher" (tests/reference_data/fisher_contributions_worked_example*.csv). The published
   volume contributions (1.98, 1.66, 1.49, 1.22 pp, tolerance +-0.005) check the Fisher
   helper; the price-side values (P^F = 0.9659288; A -4.4108, B 0.0000, C +3.7430,
-  D -2.7393) are METHODS.md 10(a) [DERIVED] from the same table.
+  D -2.7393) are docs/methods.md §10(a) [DERIVED] from the same table.
 * UK Office for National Statistics, Quarterly National Accounts dataset, release of
   31 March 2023 (tests/reference_data/uk_ons_qna_2023-03-31.csv): published GDP-deflator
   growth (1 decimal, +-0.05), CDIDs of the pct_change_deflator series.
@@ -54,7 +54,7 @@ def fisher_panel(prices, quantities, signs, *, aggregate="TOT", first_year=2000,
     """Components at constant first-period prices and their chain Fisher aggregate.
 
     Q^F = sqrt(Q^L Q^P) between adjacent periods, chained, first period = its value (BEA,
-    SCB May 1996 box; METHODS.md 2.1). Imports enter with negative quantities.
+    SCB May 1996 box; docs/methods.md §2.1). Imports enter with negative quantities.
     """
     items = list(prices)
     p = np.array([np.asarray(prices[i], float) for i in items])
@@ -107,7 +107,7 @@ def test_statcan_fisher_volume_contributions_published():
     """StatCan 13-017-X (2008) Table 2.12: t3 volume contributions 1.98, 1.66, 1.49, 1.22 (READ).
 
     The price-side helper with prices and quantities swapped is the volume-side formula
-    (METHODS.md 3.5).
+    (docs/methods.md §3.5).
     """
     _, p, q = statcan()
     ctr, qf, pf = fisher_price_contributions_arrays(q["t2"], q["t3"], p["t2"], p["t3"])
@@ -115,12 +115,12 @@ def test_statcan_fisher_volume_contributions_published():
     pub = pub[pub["quantity"] == "contribution_pp"].set_index("item")["value"]
     np.testing.assert_allclose(ctr, pub.loc[["A", "B", "C", "D"]].to_numpy(), atol=0.005 + 1e-9)
     assert 100 * qf == pytest.approx(106.3, abs=0.05 + 1e-9)  # published unlinked Fisher, t3
-    assert 100 * (qf - 1) == pytest.approx(6.3497, abs=5e-5)  # METHODS.md 10(a), DERIVED
+    assert 100 * (qf - 1) == pytest.approx(6.3497, abs=5e-5)  # docs/methods.md §10(a), DERIVED
 
 
 def test_statcan_fisher_price_contributions_derived():
     """StatCan Table 2.12 inputs; P^F = 0.9659288 and A -4.4108, B 0, C +3.7430, D -2.7393
-    (METHODS.md 10(a), DERIVED), summing exactly to 100 (P^F - 1)."""
+    (docs/methods.md §10(a), DERIVED), summing exactly to 100 (P^F - 1)."""
     _, p, q = statcan()
     ctr, pf, qf = fisher_price_contributions_arrays(p["t2"], p["t3"], q["t2"], q["t3"])
     assert pf == pytest.approx(0.9659288, abs=5e-8)
@@ -173,7 +173,7 @@ def test_uk_contributions_add_up_to_published_gdp_deflator_growth(uk, horizon):
 
 
 def test_uk_import_contribution_sign(uk):
-    """Imports negative (METHODS.md 3.7): in 2022 import prices rose (published P7 deflator
+    """Imports negative (docs/methods.md §3.7): in 2022 import prices rose (published P7 deflator
     growth > 0 both years), so the P7 contribution to GDP-deflator growth is negative."""
     d, lv = uk
     out = deflator_contributions(lv, hierarchy=Hierarchy.default())
@@ -262,7 +262,7 @@ def test_first_link_without_chain_linked_volumes():
 @given(seed=st.integers(0, 2**32 - 1), ref=st.integers(2000, 2002))
 def test_property_annual_overlap_exact_adds_up_to_implicit_deflator_growth(seed, ref):
     """Sum of two-step contributions = growth of the aggregate's implicit deflator, to 1e-9,
-    all horizons (METHODS.md 4.1, DERIVED); also from c/k alone (no chained aggregate)."""
+    all horizons (docs/methods.md §4.1, DERIVED); also from c/k alone (no chained aggregate)."""
     lv, hier = random_economy(seed, ref_year=ref)
     out = deflator_contributions(lv, hierarchy=hier)
     assert out["residual_pp"].abs().max() < 1e-9
@@ -285,7 +285,7 @@ def test_annual_overlap_exact_without_chained_aggregates_uses_previous_year_pric
 @given(seed=st.integers(0, 2**32 - 1), freq=st.sampled_from(["A", "Q"]))
 def test_property_fisher_adds_up_on_chain_fisher_data(seed, freq):
     """Chain Fisher data, imports at negative quantities: previous-period contributions sum to
-    the chained aggregate's deflator growth (METHODS.md 3.5, exactly additive)."""
+    the chained aggregate's deflator growth (docs/methods.md §3.5, exactly additive)."""
     rng = np.random.default_rng(seed)
     items = ["P3", "P51G", "P6", "P7"]
     p = {i: np.exp(np.cumsum(rng.normal(0.01, 0.05, 8))) for i in items}
@@ -371,7 +371,7 @@ def income_panel(w, pi, t, y, x, freq="A"):
 
 
 def test_income_side_hand_checked():
-    """D = Y/X = ULC + UP + UT + US (METHODS.md 4.2); ctr = 100 (U_t - U_{t-1}) / D_{t-1}."""
+    """D = Y/X = ULC + UP + UT + US (docs/methods.md §4.2); ctr = 100 (U_t - U_{t-1}) / D_{t-1}."""
     lv = income_panel([50.0, 60.0], [40.0, 42.0], [10.0, 8.0], [100.0, 112.0], [100.0, 100.0])
     out = income_side_contributions(lv).query("horizon == 'prev_year'").set_index("item")
     assert sorted(out.index) == sorted(["ULC", "UP", "UT", UNIT_DISCREPANCY])
@@ -386,7 +386,7 @@ def test_income_side_hand_checked():
 @settings(max_examples=20, deadline=None)
 @given(seed=st.integers(0, 2**32 - 1), freq=st.sampled_from(["A", "Q"]))
 def test_property_income_side_sums_to_deflator_growth(seed, freq):
-    """Income-side contributions sum to GDP-deflator growth (METHODS.md 4.2, DERIVED), net
+    """Income-side contributions sum to GDP-deflator growth (docs/methods.md §4.2, DERIVED), net
     taxes allowed negative."""
     rng = np.random.default_rng(seed)
     n = 8

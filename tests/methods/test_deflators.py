@@ -4,7 +4,7 @@ External oracle: UK Office for National Statistics, Quarterly National Accounts 
 release of 31 March 2023 (tests/reference_data/uk_ons_qna_2023-03-31.csv, provenance in
 tests/reference_data/README.md; Open Government Licence v3.0). Published deflators and
 growth rates carry one decimal (tolerance +-0.05); the 2022 = 100 deflator four decimals
-(tolerance 5e-4, METHODS.md section 1).
+(tolerance 5e-4, docs/methods.md section 1).
 """
 
 from __future__ import annotations
@@ -69,7 +69,7 @@ def test_uk_gdp_deflator_rereferenced_to_2022(uk):
     The quarters are 100 D_t / D_2022 (annual, value-weighted). The published *annual* MNF2
     values are the mean of the four published quarters (checked here to +-5e-5, their
     rounding), not 100 D_y / D_2022: in 2020 the two differ by 0.2. Our annual rows follow
-    METHODS.md section 1 and are checked against the 2019 = 100 annual series instead.
+    docs/methods.md section 1 and are checked against the 2019 = 100 annual series instead.
     """
     d, lv = uk
     ours = implicit_deflators(lv, hierarchy=HIER, reference_year=2022)
@@ -98,7 +98,7 @@ def test_uk_published_deflator_growth(uk, horizon):
 
 
 def test_uk_annual_deflator_is_value_weighted_not_mean_of_quarters(uk):
-    """Annual D = 100 C_y / CLV_y (METHODS.md section 1, DERIVED); ONS annual YBGB, 1 decimal."""
+    """Annual D = 100 C_y / CLV_y (docs/methods.md section 1, DERIVED); ONS annual YBGB, 1 decimal."""
     d, lv = uk
     ours = implicit_deflators(lv, hierarchy=HIER)
     gdp = ours[ours["item"] == "B1GQ"]
@@ -110,7 +110,7 @@ def test_uk_annual_deflator_is_value_weighted_not_mean_of_quarters(uk):
 
 
 def test_uk_sign_changing_items_get_no_deflator(uk):
-    """P52, P53, YA1 (and B11) have no deflator (METHODS.md section 1, degenerate cases)."""
+    """P52, P53, YA1 (and B11) have no deflator (docs/methods.md section 1, degenerate cases)."""
     _, lv = uk
     ours = implicit_deflators(lv, hierarchy=HIER)
     assert not set(ours["item"]) & {"P52", "P53", "YA1", "B11"}
@@ -130,7 +130,7 @@ def small_panel() -> pd.DataFrame:
 
 
 def test_hand_checked_deflators_and_rereferencing():
-    """D = 100 c/CLV; with r = 2021, D' = 100 D / D_2021 (METHODS.md section 1)."""
+    """D = 100 c/CLV; with r = 2021, D' = 100 D / D_2021 (docs/methods.md section 1)."""
     out = implicit_deflators(small_panel(), hierarchy=HIER)
     assert list(out.columns) == ["economy", "period", "frequency", "year", "quarter", "item", "deflator"]
     got = out.set_index("period")["deflator"]
@@ -142,7 +142,7 @@ def test_hand_checked_deflators_and_rereferencing():
 
 
 def test_growth_horizons_and_unchanged_by_rereferencing():
-    """Comparison periods per horizon; re-referencing leaves growth unchanged (METHODS.md 1)."""
+    """Comparison periods per horizon; re-referencing leaves growth unchanged (docs/methods.md §1)."""
     rows = []
     for y in (2020, 2021):
         for q in range(1, 5):

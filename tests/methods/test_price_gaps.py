@@ -4,7 +4,7 @@ External oracle: UK Office for National Statistics, Quarterly National Accounts 
 release of 31 March 2023 (tests/reference_data/uk_ons_qna_2023-03-31.csv, provenance in
 tests/reference_data/README.md): published deflator growth of households' consumption, GDP,
 exports and imports (1 decimal each). The other checks are properties [DERIVED] of
-METHODS.md sections 5 and 6 (ESA 95 paras 10.57-10.59), and the hand-worked first-link
+docs/methods.md sections 5 and 6 (ESA 95 paras 10.57-10.59), and the hand-worked first-link
 example of docs/derivations/first_link.md (sections 6 and 7).
 """
 
@@ -63,7 +63,7 @@ def wide(out: pd.DataFrame) -> pd.DataFrame:
 @settings(max_examples=10, deadline=None)
 @given(seed=st.integers(0, 2**32 - 1), delta=st.floats(0.01, 0.5), numeraire=st.sampled_from(NUMERAIRES))
 def test_property_import_price_rise_with_and_without_pass_through(seed, delta, numeraire):
-    """Volumes fixed; in 2002-Q4 import prices rise by delta (METHODS.md 6, DERIVED).
+    """Volumes fixed; in 2002-Q4 import prices rise by delta (docs/methods.md §6, DERIVED).
 
     Full pass-through (extra import bill = extra consumption bill): consumption deflator
     up, GDP deflator unchanged, trading gain and terms of trade down. No pass-through: GDP
@@ -98,7 +98,7 @@ def test_property_import_price_rise_with_and_without_pass_through(seed, delta, n
 @given(seed=st.integers(0, 2**32 - 1), ref=st.integers(2000, 2002), numeraire=st.sampled_from(NUMERAIRES),
        explicit=st.booleans())
 def test_property_trading_gain_zero_in_reference_year(seed, ref, numeraire, explicit):
-    """T = 0 in the reference year (annual) when all deflators equal 1 there (METHODS.md 5)."""
+    """T = 0 in the reference year (annual) when all deflators equal 1 there (docs/methods.md §5)."""
     prices, quantities = economy_data(seed)
     lv = make_panel(prices, quantities, SPEC, ref_year=2001 if explicit else ref)
     out = price_gaps(lv, hierarchy=HIER, numeraire=numeraire, reference_year=ref if explicit else None)
@@ -113,7 +113,7 @@ def test_property_trading_gain_zero_in_reference_year(seed, ref, numeraire, expl
 
 
 def test_trading_gain_closed_forms_and_final_demand_numeraire():
-    """P = P_m: T = (X/P_x)(P_x/P_m - 1); P = P_x: T = (M/P_m)(1 - P_m/P_x) (METHODS.md 5,
+    """P = P_m: T = (X/P_x)(P_x/P_m - 1); P = P_x: T = (M/P_m)(1 - P_m/P_x) (docs/methods.md §5,
     DERIVED); the final-demand numeraire equals the implicit deflator of P3 + P51G chained by
     annual overlap (here an explicit aggregate DFD_CHECK of the test panel)."""
     prices, quantities = economy_data(5)
@@ -168,7 +168,7 @@ def test_numeraire_and_reference_year_errors():
 @settings(max_examples=10, deadline=None)
 @given(seed=st.integers(0, 2**32 - 1))
 def test_property_gap_split_adds_exactly_and_matches_deflator_growth(seed):
-    """gap = export part + import part + other part, to 1e-9, every horizon (METHODS.md 6);
+    """gap = export part + import part + other part, to 1e-9, every horizon (docs/methods.md §6);
     the gaps equal differences of implicit-deflator growth rates of annual-overlap data."""
     prices, quantities = economy_data(seed)
     lv = make_panel(prices, quantities, SPEC)
@@ -185,7 +185,7 @@ def test_property_gap_split_adds_exactly_and_matches_deflator_growth(seed):
 
 def test_gap_annual_k_share_formula_and_derived_domestic_demand():
     """Annual link: pi_GDP - pi_DD = w_X (pi_X - pi_DD) - w_M (pi_M - pi_DD) + other, w = K_j/K_GDP
-    (METHODS.md 6); without a P3_P5 item the domestic demand is P3 + P5 (same result)."""
+    (docs/methods.md §6); without a P3_P5 item the domestic demand is P3 + P5 (same result)."""
     prices, quantities = economy_data(9)
     lv = make_panel(prices, quantities, SPEC)
     g = wide(price_gaps(lv, hierarchy=HIER))
@@ -337,7 +337,7 @@ def cpi_monthly(values, first_year=2000, economy="XX"):
 
 
 def test_cpi_quarterly_means_growth_and_gap_to_household_deflator():
-    """Monthly CPI enters as the mean of its levels in the quarter (METHODS.md 6, common
+    """Monthly CPI enters as the mean of its levels in the quarter (docs/methods.md §6, common
     practice); growth per horizon; gap = CPI growth - household deflator growth."""
     prices, quantities = economy_data(4)
     lv = make_panel(prices, quantities, SPEC)
@@ -381,7 +381,7 @@ def test_cpi_frame_errors():
 
 def test_final_demand_numeraire_when_the_first_year_is_the_reference():
     # the first year of accounts has no previous-year prices: the domestic final demand
-    # deflator's chain starts there at 1 (METHODS.md section 5; first-year convention of 2.2)
+    # deflator's chain starts there at 1 (docs/methods.md section 5; first-year convention of 2.2)
     prices, quantities = economy_data(3)
     lv = make_panel(prices, quantities, SPEC, ref_year=2000)
     lv = lv[~((lv["price_basis"] == "previous_year") & (lv["year"] == 2000))]

@@ -1,11 +1,11 @@
 """Tests of valvol.methods.reconcile (multivariate reconciliation).
 
-Independent solves, with dense numpy matrices, of the formulations in METHODS.md 7.3: the
+Independent solves, with dense numpy matrices, of the formulations in docs/methods.md §7.3: the
 least-squares adjustment of Stone, Champernowne & Meade (1942), x* = x + V H'(H V H')^+ (h - H x)
 with V = diag(x^2) and a pseudo-inverse (which copes with the redundant row), and the
 multivariate proportional Denton objective (QNA 2017 §6.5.A, title read; formulation
 [DERIVED]) as a dense KKT system solved by least squares. The other checks are the properties
-of METHODS.md 7.3 [DERIVED]: consistency checked first, one redundant row per year, fixed
+of docs/methods.md §7.3 [DERIVED]: consistency checked first, one redundant row per year, fixed
 series unmoved, constraints met.
 """
 
@@ -85,7 +85,7 @@ def wide(result_components, names):
 
 @pytest.mark.parametrize("fixed", [(), ("C2",)])
 def test_wls_agrees_with_least_squares_formula_and_pseudo_inverse(fixed):
-    """Stone, Champernowne & Meade (1942) as in METHODS.md 7.3: x* = x + V H'(H V H')^+ (h - H x),
+    """Stone, Champernowne & Meade (1942) as in docs/methods.md §7.3: x* = x + V H'(H V H')^+ (h - H x),
     V = diag(x^2), pseudo-inverse over all rows (redundant ones included); agrees to 1e-9."""
     s = make_system(1)
     if fixed:  # a fixed series must already meet its benchmark
@@ -104,7 +104,7 @@ def test_wls_agrees_with_least_squares_formula_and_pseudo_inverse(fixed):
 
 @pytest.mark.parametrize("with_discrepancy", [False, True])
 def test_proportional_denton_agrees_with_dense_kkt(with_discrepancy):
-    """Multivariate proportional Denton, METHODS.md 7.3: min sum_i sum_t (x_it/z_it -
+    """Multivariate proportional Denton, docs/methods.md §7.3: min sum_i sum_t (x_it/z_it -
     x_i,t-1/z_i,t-1)^2 s.t. H x = h, as a dense KKT system with every row (least squares, so the
     redundant row does no harm); the sparse solve agrees to 1e-9."""
     s = make_system(2, n=3, years=4, extra=3)
@@ -142,7 +142,7 @@ systems = st.tuples(st.integers(0, 10_000), st.integers(2, 5), st.integers(1, 4)
 @SETTINGS
 @given(systems)
 def test_components_add_to_total_and_meet_benchmarks(p):
-    """METHODS.md 7.3: after reconciliation the signed components (plus the discrepancy) add to
+    """docs/methods.md §7.3: after reconciliation the signed components (plus the discrepancy) add to
     the total within 1e-9 (relative) every quarter, and each component matches its benchmarks."""
     seed, n, years, extra, method, with_fixed = p
     s = make_system(seed, n=n, years=years, extra=extra)
@@ -166,7 +166,7 @@ def test_components_add_to_total_and_meet_benchmarks(p):
 @SETTINGS
 @given(systems, st.floats(0.01, 50.0), st.booleans())
 def test_inconsistent_system_raises_naming_year_and_gap(p, delta, negative):
-    """METHODS.md 7.3: consistency is checked first; an inconsistent year is refused with the
+    """docs/methods.md §7.3: consistency is checked first; an inconsistent year is refused with the
     year and the gap (signed annual benchmarks minus the aggregated total)."""
     seed, n, years, extra, method, _ = p
     s = make_system(seed, n=n, years=years, extra=extra)

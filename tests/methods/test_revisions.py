@@ -2,18 +2,18 @@
 
 Sources named beside each check:
 - OECD/Eurostat, *Guidelines on Revisions Policy and Analysis*: sign convention R = later - earlier
-  and the definitions of MR, MAR, RMAR, RMSR and the bias t-test (as given in METHODS.md section 8).
+  and the definitions of MR, MAR, RMAR, RMSR and the bias t-test (as given in docs/methods.md section 8).
   The numeric examples are small hand computations derived from these definitions.
-- Newey & West (1987), Econometrica 55(3): Bartlett-weighted HAC variance (formula of METHODS.md
+- Newey & West (1987), Econometrica 55(3): Bartlett-weighted HAC variance (formula of docs/methods.md
   section 8, a project convention); checked by hand computation.
 - scipy.stats (general-purpose reference library) for critical values.
 - OECD Main Economic Indicators revisions database: triangle layout (rows reference periods,
-  columns vintages, diagonals k-th estimates; METHODS.md section 8).
+  columns vintages, diagonals k-th estimates; docs/methods.md section 8).
 - Reference year = the year where annual chain-linked volume equals current prices: annual overlap
-  (METHODS.md sections 1-2).
+  (docs/methods.md sections 1-2).
 
 Not reproduced: the ONS *GDP revisions in Blue Book 2020* (2023) Table 1 figures named in
-METHODS.md section 8 need the ONS real-time vintages of GDP growth, which the project's reference
+docs/methods.md section 8 need the ONS real-time vintages of GDP growth, which the project's reference
 data do not hold; no test pretends to check them.
 """
 
@@ -81,7 +81,7 @@ def with_deflators(levels: pd.DataFrame) -> dict[str, pd.DataFrame]:
 
 
 def test_sign_is_later_minus_earlier() -> None:
-    # OECD/Eurostat Guidelines on Revisions Policy and Analysis: R_t = L_t - P_t (METHODS.md 8, READ).
+    # OECD/Eurostat Guidelines on Revisions Policy and Analysis: R_t = L_t - P_t (docs/methods.md §8, READ).
     r = revisions({"growth": growth_table([1.0, 2.0, 3.0, 4.0])}, {"growth": growth_table([1.5, 1.5, 3.5, 4.5])})
     assert list(r["measure"].unique()) == ["growth_volume_prev_period"]
     assert r["earlier"].tolist() == [1.0, 2.0, 3.0, 4.0]
@@ -91,7 +91,7 @@ def test_sign_is_later_minus_earlier() -> None:
 
 
 def test_growth_revisions_come_from_each_vintage_growth_table() -> None:
-    # METHODS.md 8 pitfall [DERIVED]: revise growth rates computed within each vintage, in pp.
+    # docs/methods.md §8 pitfall [DERIVED]: revise growth rates computed within each vintage, in pp.
     # Levels are revised, but the revision of growth is the difference of the published growth rates.
     lv = pd.DataFrame({"economy": "XX", "period": ["2020-Q1", "2020-Q2"], "frequency": "Q", "item": "B1GQ",
                        "price_basis": "current", "value": [100.0, 102.0]})
@@ -104,7 +104,7 @@ def test_growth_revisions_come_from_each_vintage_growth_table() -> None:
 
 
 def test_common_keys_only() -> None:
-    # METHODS.md 8 pitfall [DERIVED]: common periods only.
+    # docs/methods.md §8 pitfall [DERIVED]: common periods only.
     e = growth_table([1.0, 2.0, 3.0], QUARTERS[:3])
     lt = growth_table([2.5, 3.0, 9.0], QUARTERS[1:])
     r = revisions({"growth": e}, {"growth": lt})
@@ -150,14 +150,14 @@ def test_bad_tables_raise_input_error() -> None:
 
 def test_reference_year_detection() -> None:
     # Annual overlap: the annual chain-linked volume equals current prices in the reference year
-    # (METHODS.md sections 1-2).
+    # (docs/methods.md sections 1-2).
     assert reference_years(annual_levels(2019))["reference_year"].tolist() == [2019]
     # Without B1GQ the year where most items match is chosen.
     assert reference_years(annual_levels(2021, items=("P6", "P7")))["reference_year"].tolist() == [2021]
 
 
 def test_reference_year_change_leaves_out_chain_linked_and_deflators() -> None:
-    # METHODS.md 8 pitfall [DERIVED]: level revisions across a reference-year change are meaningless.
+    # docs/methods.md §8 pitfall [DERIVED]: level revisions across a reference-year change are meaningless.
     earlier = with_deflators(annual_levels(2019))
     later = with_deflators(annual_levels(2020, shift=1.0))
     ch = reference_year_changes(earlier, later)
@@ -191,7 +191,7 @@ def test_reference_year_change_is_per_economy() -> None:
 # --- summary ----------------------------------------------------------------------------------------
 
 # Derived from the definitions in OECD/Eurostat Guidelines on Revisions Policy and Analysis
-# (METHODS.md 8): R = [0.5, -0.5, 0.5, 0.5], L = [1.5, 1.5, 3.5, 4.5].
+# (docs/methods.md §8): R = [0.5, -0.5, 0.5, 0.5], L = [1.5, 1.5, 3.5, 4.5].
 R = [0.5, -0.5, 0.5, 0.5]
 L = [1.5, 1.5, 3.5, 4.5]
 
@@ -251,7 +251,7 @@ def test_significant_bias_by_hand() -> None:
 
 
 def test_hac_by_hand() -> None:
-    # METHODS.md 8 HAC convention (Newey & West 1987 Bartlett weights), L = 1, hand computed.
+    # docs/methods.md §8 HAC convention (Newey & West 1987 Bartlett weights), L = 1, hand computed.
     e = [0.25, -0.75, 0.25, 0.25]                          # R - MR
     see = sum(x * x for x in e)                            # 0.75
     cross = e[1] * e[0] + e[2] * e[1] + e[3] * e[2]        # -0.3125
@@ -307,7 +307,7 @@ def _vintage(values: list[float]) -> dict[str, pd.DataFrame]:
 
 
 def test_triangle_layout_and_diagonals() -> None:
-    # OECD MEI revisions database layout (METHODS.md 8): rows reference periods, columns vintages.
+    # OECD MEI revisions database layout (docs/methods.md §8): rows reference periods, columns vintages.
     vs = [("20260301T000000Z-c", _vintage([1.2, 0.7, 0.4, 0.9])),
           ("20260101T000000Z-a", _vintage([1.0, 0.5])),
           ("20260201T000000Z-b", _vintage([1.1, 0.6, 0.3]))]

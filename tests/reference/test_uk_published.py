@@ -110,7 +110,7 @@ def test_volume_and_value_growth_as_published(uk_out, measure, ours_measure):
 
 def test_rereferenced_deflator_2022(uk_out_2022):
     # ONS GDP deflator at 2022 = 100 (MNF2), four decimals. Quarters: D'_t = 100 D_t / D_2022
-    # (METHODS.md section 1, re-referencing). The published annual MNF2 is the mean of the four
+    # (docs/methods.md section 1, re-referencing). The published annual MNF2 is the mean of the four
     # published quarters (checked on the release), not the value-weighted 100 C_y / CLV'_y that
     # valvol publishes; so annual rows are checked against the mean of our quarters.
     ours = pd.read_parquet(uk_out_2022 / "deflators.parquet").query("item == 'B1GQ'")

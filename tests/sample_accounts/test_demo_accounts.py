@@ -7,7 +7,7 @@ obey. The earlier release (``sample_accounts/earlier_release/``, one quarter sho
 estimates of its last five quarters) is checked against the later one; then the income side (D1, B2A3G,
 D2X3 at current prices), the monthly consumer price index (``cpi.csv``) and, at the end, the flash
 estimate of 2025 (``sample_accounts/first_estimate/``) with its annual benchmarks, reconciled end to
-end. Sources are named beside each check; METHODS.md is ``/work/shared/METHODS.md``.
+end. Sources are named beside each check (formulas in docs/methods.md).
 """
 
 from __future__ import annotations
@@ -94,7 +94,7 @@ def unrounded(gen):
 
 
 def _deflator_growth(annual: pd.DataFrame, item: str, year: int) -> float:
-    """Annual implicit deflator growth, % (METHODS.md section 1: D = 100*C/CLV, value-weighted)."""
+    """Annual implicit deflator growth, % (docs/methods.md section 1: D = 100*C/CLV, value-weighted)."""
     a = annual.loc[item]
     d = a["current"] / a["chain_linked"]
     return 100.0 * (d.loc[year] / d.loc[year - 1] - 1.0)
@@ -165,9 +165,9 @@ def test_input_contract(committed):
     bases = committed.groupby("item")["price_basis"].agg(lambda s: tuple(sorted(set(s))))
     for item in CHAINED:
         assert bases[item] == ("chain_linked", "current", "previous_year"), item
-    for item in SIGN_CHANGING:  # METHODS.md sections 1 and 2.4: no ratio chaining of sign-changing items
+    for item in SIGN_CHANGING:  # docs/methods.md sections 1 and 2.4: no ratio chaining of sign-changing items
         assert bases[item] == ("current", "previous_year"), item
-    for item in INCOME:  # income flows have no price and volume of their own (METHODS.md section 5)
+    for item in INCOME:  # income flows have no price and volume of their own (docs/methods.md section 5)
         assert bases[item] == ("current",), item
     assert (committed.groupby(["item", "price_basis"]).size() == 56).all()
     tenths = committed["value"].to_numpy() * 10.0
@@ -211,7 +211,7 @@ def test_positive_and_sign_changing_items(wide):
 @pytest.mark.parametrize("basis", ["current", "previous_year"])
 def test_expenditure_identities_hold_each_quarter(wide, basis):
     # SNA expenditure identity, B1GQ = P3 + P5 + P6 - P7 + YA1 (common practice); aggregates are
-    # formed at current and previous-year prices as signed sums (METHODS.md, Notation).
+    # formed at current and previous-year prices as signed sums (docs/methods.md, Notation).
     table = wide.pivot(index="period", columns="item", values=basis)
     for agg, signs in AGGREGATES.items():
         total = sum(sign * table[item] for item, sign in signs.items())
@@ -222,7 +222,7 @@ def test_expenditure_identities_hold_each_quarter(wide, basis):
 
 
 def test_annual_previous_year_value_is_quantities_at_previous_year_unit_values(gen, annual):
-    # IMF QNA Manual 2017, ch.8, para. 8.17, eq.(2) (METHODS.md Notation, READ-partial):
+    # IMF QNA Manual 2017, ch.8, para. 8.17, eq.(2) (docs/methods.md Notation, READ-partial):
     # K_y = sum over products of Pbar_{j,y-1} * Q_{j,y}, Pbar the value-weighted annual average price;
     # annual K_y is the sum of the four quarters.
     prod = gen.simulate_products()
@@ -240,7 +240,7 @@ def test_annual_previous_year_value_is_quantities_at_previous_year_unit_values(g
 
 
 def test_unit_values_are_value_weighted(gen):
-    # METHODS.md section 2.2, pitfall [DERIVED]: at value-weighted unit values the quarters of y
+    # docs/methods.md section 2.2, pitfall [DERIVED]: at value-weighted unit values the quarters of y
     # add up to the year's value C_y; an unweighted mean of quarterly prices misses it.
     prod = gen.simulate_products()
     prod["value"] = prod["price"] * prod["quantity"]
@@ -258,7 +258,7 @@ def test_unit_values_are_value_weighted(gen):
 
 
 def test_reference_year_annual_volume_equals_current_value(annual, unrounded):
-    # ABS 5216.0 (2020-21), ch.6 Annex para. 6A.2, eq.(1); METHODS.md 2.1: CLV_r = C_r, r = 2020.
+    # ABS 5216.0 (2020-21), ch.6 Annex para. 6A.2, eq.(1); docs/methods.md §2.1: CLV_r = C_r, r = 2020.
     for item in CHAINED:
         clv = annual.loc[(item, 2020), "chain_linked"]
         assert abs(clv - unrounded.loc[(item, 2020), "c"]) <= ROUND_A + 1e-6, item
@@ -266,7 +266,7 @@ def test_reference_year_annual_volume_equals_current_value(annual, unrounded):
 
 
 def test_quarters_sum_to_the_annual_chain(unrounded, annual):
-    # METHODS.md 2.1-2.2 [READ: ABS 5216.0 ch.6 Annex eq.(1); DERIVED: annual overlap, QNA 2017
+    # docs/methods.md §2.1-2.2 [READ: ABS 5216.0 ch.6 Annex eq.(1); DERIVED: annual overlap, QNA 2017
     # section 8.4.D]: L_y = K_y / C_{y-1}, CLV_2020 = C_2020, chained both ways; the four published
     # quarters of y sum to CLV_y. The chain is rebuilt here from the unrounded values.
     u = unrounded.loc[CHAINED].reset_index().sort_values(["item", "year"])
@@ -280,7 +280,7 @@ def test_quarters_sum_to_the_annual_chain(unrounded, annual):
 
 
 def test_quarterly_volumes_follow_the_annual_overlap_formula(gen, committed):
-    # METHODS.md 2.2 annual_overlap [DERIVED]: CLV(s,y) = k(s,y) * CLV_{y-1} / C_{y-1}, computed from
+    # docs/methods.md §2.2 annual_overlap [DERIVED]: CLV(s,y) = k(s,y) * CLV_{y-1} / C_{y-1}, computed from
     # unrounded values and rounded to one decimal.
     levels = gen.unrounded_levels()
     ann = levels.groupby(["item", "year"])[["c", "k"]].sum(min_count=4)
@@ -302,7 +302,7 @@ def test_quarterly_volumes_follow_the_annual_overlap_formula(gen, committed):
 
 
 def test_annual_links_from_published_data(annual):
-    # METHODS.md 2.1 [READ: ABS 5216.0 ch.6 Annex eq.(1)]: CLV_y / CLV_{y-1} = K_y / C_{y-1}, here
+    # docs/methods.md §2.1 [READ: ABS 5216.0 ch.6 Annex eq.(1)]: CLV_y / CLV_{y-1} = K_y / C_{y-1}, here
     # from the published (rounded) values alone; the tolerance bounds the rounding carried by each
     # term. 2012 is not checked: its previous year (2011) is not published.
     for item in CHAINED:
@@ -317,7 +317,7 @@ def test_annual_links_from_published_data(annual):
 
 
 def test_aggregates_are_not_sums_of_chained_components(annual):
-    # ESA 95 para. 10.65 (METHODS.md 2.3): chained components do not add to the chained aggregate
+    # ESA 95 para. 10.65 (docs/methods.md §2.3): chained components do not add to the chained aggregate
     # away from the reference year; each aggregate is chained from its own sums.
     a = annual["chain_linked"].unstack("item")
     residual = a["B1GQ"] - (a["P3"] + a["P51G"] + a["P6"] - a["P7"])
@@ -329,14 +329,14 @@ def test_aggregates_are_not_sums_of_chained_components(annual):
 
 def test_energy_shock_2022_lifts_household_prices_above_gdp_prices(annual):
     # Design of the demo: imported energy price shock in 2022. Annual implicit deflators
-    # (METHODS.md section 1 and 6: the household deflator includes imported goods, the GDP
+    # (docs/methods.md section 1 and 6: the household deflator includes imported goods, the GDP
     # deflator subtracts imports).
     hh = _deflator_growth(annual, "P31_S14", 2022)
     gdp = _deflator_growth(annual, "B1GQ", 2022)
     assert hh - gdp >= 3.0
     assert _deflator_growth(annual, "P7", 2022) > 10.0
     tot = _deflator_growth(annual, "P6", 2022) - _deflator_growth(annual, "P7", 2022)
-    assert tot < -5.0  # terms of trade fall (METHODS.md section 5: ToT = 100 Px/Pm)
+    assert tot < -5.0  # terms of trade fall (docs/methods.md section 5: ToT = 100 Px/Pm)
 
 
 def test_export_boom_2024_2025_lifts_gdp_prices_above_household_prices(annual):
@@ -384,7 +384,7 @@ def _wide_basis(frame: pd.DataFrame, basis: str) -> pd.DataFrame:
 
 
 def _qoq(frame: pd.DataFrame, item: str, basis: str = "chain_linked") -> pd.Series:
-    """Quarter-on-quarter growth, % (METHODS.md section 4, growth of a chain-linked volume)."""
+    """Quarter-on-quarter growth, % (docs/methods.md section 4, growth of a chain-linked volume)."""
     s = _wide_basis(frame, basis)[item]
     return 100.0 * (s / s.shift(1) - 1.0)
 
@@ -443,7 +443,7 @@ def test_earlier_release_identical_before_the_revised_quarters(vintages):
     # Design of the two releases: up to 2024-Q2 quantities and prices are the same, so the published
     # values at current and previous-year prices are identical. The chain-linked quarters too: by
     # annual overlap a quarter of y depends only on y-1 and earlier years and on the quarter itself,
-    # CLV(s,y) = k(s,y) * CLV_{y-1} / C_{y-1} (METHODS.md 2.2; ABS 5216.0 ch.6 Annex eq.(1)).
+    # CLV(s,y) = k(s,y) * CLV_{y-1} / C_{y-1} (docs/methods.md §2.2; ABS 5216.0 ch.6 Annex eq.(1)).
     before = vintages[vintages.index.get_level_values("period") < "2024-Q3"]
     assert len(before) == 36 * 50  # 36 series (33 expenditure, 3 income) over 2012-Q1 .. 2024-Q2
     for basis in ["current", "previous_year", "chain_linked"]:
@@ -472,7 +472,7 @@ def test_same_simulation_before_the_revised_quarters(gen):
 @pytest.mark.parametrize("basis", ["current", "previous_year"])
 def test_earlier_expenditure_identities_hold_each_quarter(earlier, basis):
     # SNA expenditure identity (common practice); signed sums at current and previous-year prices
-    # (METHODS.md, Notation), within floating-point precision.
+    # (docs/methods.md, Notation), within floating-point precision.
     table = _wide_basis(earlier, basis)
     for agg, signs in AGGREGATES.items():
         total = sum(sign * table[item] for item, sign in signs.items())
@@ -492,7 +492,7 @@ def test_revisions_present_in_every_revised_quarter(vintages):
 def test_size_of_the_level_revisions(vintages):
     # Design of the demo (a few tenths of a percent, larger for investment P51G and inventories P52,
     # growing toward the latest quarter). Revision R = L - P, later minus earlier estimate
-    # (METHODS.md section 8, OECD/Eurostat Guidelines on Revisions Policy and Analysis).
+    # (docs/methods.md section 8, OECD/Eurostat Guidelines on Revisions Policy and Analysis).
     cur = vintages.xs("current", level="price_basis").loc[(slice(None), REVISED), :]
     rel = (100.0 * (cur["later"] / cur["earlier"] - 1.0)).unstack("period")
     assert rel.loc[POSITIVE].abs().to_numpy().max() <= 1.0
@@ -512,14 +512,14 @@ def test_size_of_the_level_revisions(vintages):
 def test_size_of_the_gdp_growth_revisions(earlier, committed):
     # Design: the first estimate of 2025-Q3 GDP volume growth q/q differs by 0.2-0.5 pp from the later
     # release; earlier quarters less. Scale checked against ONS, GDP revisions in Blue Book 2020 (2023),
-    # Table 1: mean absolute revision of GDP growth 0.2 pp at T+3 (as quoted in METHODS.md section 8).
-    # Growth rates are computed within each vintage, then compared (METHODS.md section 8, pitfalls).
+    # Table 1: mean absolute revision of GDP growth 0.2 pp at T+3 (as quoted in docs/methods.md section 8).
+    # Growth rates are computed within each vintage, then compared (docs/methods.md section 8, pitfalls).
     revision = (_qoq(committed, "B1GQ") - _qoq(earlier, "B1GQ")).loc[["2024-Q2", *REVISED]]
     assert revision.loc["2024-Q2"] == 0.0
     assert 0.2 <= abs(revision.loc["2025-Q3"]) <= 0.5
     assert (revision.loc[REVISED[:-1]].abs() < abs(revision.loc["2025-Q3"])).all()
     assert 0.05 <= revision.loc[REVISED].abs().mean() <= 0.3
-    # prices are revised less than volumes: GDP deflator growth (METHODS.md section 1, D = 100 C/CLV)
+    # prices are revised less than volumes: GDP deflator growth (docs/methods.md section 1, D = 100 C/CLV)
     defl = {
         name: _wide_basis(f, "current")["B1GQ"] / _wide_basis(f, "chain_linked")["B1GQ"]
         for name, f in [("earlier", earlier), ("later", committed)]
@@ -530,7 +530,7 @@ def test_size_of_the_gdp_growth_revisions(earlier, committed):
 
 
 def test_incomplete_year_links_on_the_previous_year(gen, earlier, committed):
-    # METHODS.md 2.2 annual_overlap [DERIVED]: the quarters of 2025, an incomplete year in the earlier
+    # docs/methods.md §2.2 annual_overlap [DERIVED]: the quarters of 2025, an incomplete year in the earlier
     # release, are CLV(s,2025) = k(s,2025) * CLV_2024 / C_2024, with the earlier release's own 2024.
     levels = gen.unrounded_levels(gen.EARLIER_LAST_QUARTER, gen.REVISION_SEED)
     assert levels["period"].max() == "2025-Q3"
@@ -569,14 +569,14 @@ EXPENDITURE_SHA256 = {
 
 
 def _unit_incomes(annual: pd.DataFrame) -> tuple[pd.Series, pd.DataFrame]:
-    """Annual GDP deflator D = Y/X and unit incomes U_k = income_k/X, X the chain-linked GDP (METHODS.md 4.2)."""
+    """Annual GDP deflator D = Y/X and unit incomes U_k = income_k/X, X the chain-linked GDP (docs/methods.md §4.2)."""
     real = annual.loc["B1GQ", "chain_linked"]
     current = annual["current"].unstack("item")
     return current["B1GQ"] / real, current[INCOME].div(real, axis=0)
 
 
 def _income_contributions(annual: pd.DataFrame) -> pd.DataFrame:
-    """ctr_k = 100 (U_k,t - U_k,t-1) / D_t-1, pp (METHODS.md 4.2, level form)."""
+    """ctr_k = 100 (U_k,t - U_k,t-1) / D_t-1, pp (docs/methods.md §4.2, level form)."""
     deflator, units = _unit_incomes(annual)
     return 100.0 * units.diff().div(deflator.shift(1), axis=0)
 
@@ -595,7 +595,7 @@ def test_income_rows_are_appended_after_unchanged_expenditure_rows(path):
 
 @pytest.mark.parametrize("release", ["later", "earlier"])
 def test_income_identity_holds_each_quarter(committed, earlier, release):
-    # SNA income approach (common practice; METHODS.md 4.2: Y = W + Pi + T (+ S)): D1 + B2A3G + D2X3 =
+    # SNA income approach (common practice; docs/methods.md §4.2: Y = W + Pi + T (+ S)): D1 + B2A3G + D2X3 =
     # B1GQ at current prices; the demo has no income-side discrepancy S.
     table = _wide_basis(committed if release == "later" else earlier, "current")
     assert table[INCOME].notna().all().all()
@@ -617,9 +617,9 @@ def test_income_shares_of_gdp(annual, committed):
 
 
 def test_income_contributions_add_up_to_the_gdp_deflator(annual):
-    # METHODS.md 4.2 [DERIVED]: D = ULC + UP + UT (+ US), so the contributions add up to the growth of
+    # docs/methods.md §4.2 [DERIVED]: D = ULC + UP + UT (+ US), so the contributions add up to the growth of
     # the GDP deflator; unit profits = operating surplus over real GDP (ECB Economic Bulletin 6/2019,
-    # box by Hahn, as quoted in METHODS.md 4.2). Here within floating-point precision (no discrepancy).
+    # box by Hahn, as quoted in docs/methods.md §4.2). Here within floating-point precision (no discrepancy).
     deflator, _ = _unit_incomes(annual)
     growth = 100.0 * (deflator / deflator.shift(1) - 1.0)
     total = _income_contributions(annual).sum(axis=1, min_count=3)
@@ -629,7 +629,7 @@ def test_income_contributions_add_up_to_the_gdp_deflator(annual):
 def test_unit_profits_drive_the_gdp_deflator_in_the_export_boom(annual):
     # Design of the demo: in the 2024-2025 ore export boom the operating surplus jumps, so unit
     # profits grow faster than unit labour costs and contribute most to GDP deflator growth
-    # (METHODS.md 4.2: ULC = D1/X, UP = B2A3G/X, X chain-linked GDP).
+    # (docs/methods.md §4.2: ULC = D1/X, UP = B2A3G/X, X chain-linked GDP).
     _, units = _unit_incomes(annual)
     unit_growth = 100.0 * (units / units.shift(1) - 1.0)
     assert unit_growth.loc[2024, "B2A3G"] > unit_growth.loc[2024, "D1"] + 3.0
@@ -642,7 +642,7 @@ def test_unit_profits_drive_the_gdp_deflator_in_the_export_boom(annual):
 def test_energy_shock_squeezes_real_wages_and_cuts_net_taxes(annual):
     # Design of the demo: in 2022 wages lag consumer prices (unit labour costs grow far less than the
     # household consumption deflator) and catch up in 2023; energy subsidies make net taxes on
-    # production and imports fall in 2022 (METHODS.md 4.2: use the level form when net taxes move
+    # production and imports fall in 2022 (docs/methods.md §4.2: use the level form when net taxes move
     # sharply).
     _, units = _unit_incomes(annual)
     ulc_growth = 100.0 * (units["D1"] / units["D1"].shift(1) - 1.0)
@@ -680,7 +680,7 @@ def _months(last: str) -> list[str]:
 
 
 def _cpi_quarterly(frame: pd.DataFrame) -> pd.Series:
-    """Quarterly CPI: the mean of the three monthly levels (METHODS.md 6 [MEMORY, common practice])."""
+    """Quarterly CPI: the mean of the three monthly levels (docs/methods.md §6 [MEMORY, common practice])."""
     month = frame["period"].str[5:7].astype("int64")
     label = frame["period"].str[:4] + "-Q" + ((month + 2) // 3).astype(str)
     return frame.groupby(label)["value"].mean()
@@ -724,10 +724,10 @@ def test_cpi_moves_smoothly_within_quarters(cpi):
 
 
 def test_cpi_tracks_the_household_deflator_and_exceeds_it_at_the_energy_peak(cpi, committed):
-    # METHODS.md 6: growth gaps in pp y/y, a monthly CPI entering as the quarterly mean of its levels
-    # [MEMORY, common practice]. Coverage (METHODS.md 6; ECB Economic Bulletin 1/2022, Eiglsperger
+    # docs/methods.md §6: growth gaps in pp y/y, a monthly CPI entering as the quarterly mean of its levels
+    # [MEMORY, common practice]. Coverage (docs/methods.md §6; ECB Economic Bulletin 1/2022, Eiglsperger
     # et al.: no owner-occupied housing in the HICP) and fixed-basket weights (McCully, Moyer & Stewart,
-    # SCB Nov 2007, as quoted in METHODS.md 6) make the CPI run above the household consumption
+    # SCB Nov 2007, as quoted in docs/methods.md §6) make the CPI run above the household consumption
     # deflator when energy prices jump (design: 1-2 pp at the 2022 peak); otherwise it tracks it.
     quarterly = _cpi_quarterly(cpi)
     hh = _wide_basis(committed, "current")["P31_S14"] / _wide_basis(committed, "chain_linked")["P31_S14"]
@@ -853,7 +853,7 @@ def test_indicator_errors_as_designed(gen, flash_wide, committed):
 def test_flash_misses_the_benchmarks(flash_wide, benchmarks):
     # Design: the indicator-based components miss their 2025 totals by more than 0.1%; government
     # consumption (from the budget) meets its benchmark exactly, as a fixed series must (reconcile
-    # docstring: a benchmark of a fixed series must already be met; METHODS.md 7.3, fixed series).
+    # docstring: a benchmark of a fixed series must already be met; docs/methods.md §7.3, fixed series).
     bench = benchmarks.set_index("item")["value"]
     sums = flash_wide.loc[FLASH_Q, FLASH_COMPONENTS].sum()
     miss = 100.0 * (sums - bench) / bench.abs()
@@ -872,7 +872,7 @@ def test_flash_misses_the_gdp_identity_in_2025(flash_wide):
 
 
 def test_annual_system_is_consistent(flash_wide, benchmarks, committed):
-    # METHODS.md 7.3 (rank; Stone, Champernowne & Meade 1942, QNA 2017 6.5.A, as quoted): the signed
+    # docs/methods.md §7.3 (rank; Stone, Champernowne & Meade 1942, QNA 2017 6.5.A, as quoted): the signed
     # annual benchmarks plus the discrepancy must equal the year's total, sum_i s_i A_i + sum_q YA1_q =
     # sum_q B1GQ_q, within the reconcile tolerance (1e-6 of the annual total); here exactly, to float
     # precision. The benchmarks are the true totals: the later release's sums of quarters.
@@ -888,7 +888,7 @@ def test_annual_system_is_consistent(flash_wide, benchmarks, committed):
 
 def test_reconciliation_of_the_flash_end_to_end(tmp_path, flash_wide, benchmarks, committed):
     # valvol reconcile (README, benchmarking and reconciliation; multivariate proportional Denton, QNA 2017
-    # 6.5.A; METHODS.md 7.3): afterwards each component meets its 2025 benchmark, the signed components
+    # 6.5.A; docs/methods.md §7.3): afterwards each component meets its 2025 benchmark, the signed components
     # plus YA1 equal GDP each quarter, the fixed series and the quarters before 2024 do not move and 2024
     # keeps its annual totals. Design: the reconciled household consumption is within 0.1% of the later
     # release in every 2025 quarter, closer than the flash.

@@ -27,7 +27,7 @@ def make_panel(prices, quantities, spec=(), *, first_year=2000, ref_year=2000, e
     """Quarterly and annual current, previous-year-price and annual-overlap chained values.
 
     PYP = quantity x unit value of the previous year (first year: its own), QNA 2017 ch. 8;
-    CLV_y = CLV_{y-1} K_y / C_{y-1}, CLV_r = C_r, CLV(s, y) = k(s, y) CLV_y / K_y (METHODS.md
+    CLV_y = CLV_{y-1} K_y / C_{y-1}, CLV_r = C_r, CLV(s, y) = k(s, y) CLV_y / K_y (docs/methods.md
     2.2). ``spec``: bottom-up (aggregate, [(item, sign), ...]) summed at current and
     previous-year prices. Series with a non-positive value get no chained rows.
     """

@@ -356,7 +356,7 @@ def denton(indicator: pd.DataFrame, benchmarks: pd.DataFrame, *, method: str = "
     approach based on quadratic minimization", JASA 66(333). Cholette, P.A. (1984), "Adjusting
     sub-annual series to yearly benchmarks", Survey Methodology 10. IMF, Quarterly National
     Accounts Manual, 2017 Edition, ch. 6 "Benchmarking and Reconciliation". Marini, M. and
-    Di Fonzo, T. (2012), IMF WP/12/169. Project notes: METHODS.md section 7.1.
+    Di Fonzo, T. (2012), IMF WP/12/169. Project notes: docs/methods.md section 7.1.
     """
     check_choice("method", method, DENTON_METHODS)
     check_choice("on_nonpositive", on_nonpositive, ON_NONPOSITIVE)
@@ -536,7 +536,7 @@ def chow_lin(indicator: pd.DataFrame, benchmarks: pd.DataFrame, *, rho: float | 
     Chow, G.C. and Lin, A. (1971), "Best linear unbiased interpolation, distribution and
     extrapolation of time series by related series", REStat 53(4). IMF, Quarterly National
     Accounts Manual, 2017 Edition, ch. 6. ESS guidelines on temporal disaggregation,
-    benchmarking and reconciliation (2018). Project notes: METHODS.md section 7.2.
+    benchmarking and reconciliation (2018). Project notes: docs/methods.md section 7.2.
     """
     lo, hi = (float(b) for b in rho_bounds)
     if not -1.0 < lo < hi < 1.0:

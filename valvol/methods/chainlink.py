@@ -33,7 +33,7 @@ from valvol.methods.panel import (
     top_aggregates,
 )
 
-#: Quarterly linking techniques (METHODS.md section 2.2).
+#: Quarterly linking techniques (docs/methods.md section 2.2).
 METHODS = ("annual_overlap", "one_quarter_overlap", "over_the_year")
 COMPARE_COLUMNS = ["economy", "item", "frequency", "year", "quarter", "period", "given", "computed",
                    "diff", "pct_diff"]
@@ -78,11 +78,11 @@ def chain_link(levels: pd.DataFrame, *, hierarchy: Hierarchy, method: str = "ann
 
     Notes
     -----
-    Annual links (METHODS.md 2.1): L_y = K_y / C_{y-1}, CLV_r = C_r, CLV_y = CLV_{y-1} L_y
+    Annual links (docs/methods.md §2.1): L_y = K_y / C_{y-1}, CLV_r = C_r, CLV_y = CLV_{y-1} L_y
     forward and CLV_{y-1} = CLV_y / L_y backward. The first year y0 of a series (no
     previous-year prices) thus has CLV_{y0} = CLV_{y0+1} / L_{y0+1}.
 
-    Quarters (METHODS.md 2.2), k at previous-year prices, c at current prices:
+    Quarters (docs/methods.md §2.2), k at previous-year prices, c at current prices:
 
     * annual overlap: CLV(s,y) = k(s,y) CLV_{y-1} / C_{y-1}. The quarters add up to the
       annual volume (average to it with ``annual_rate``, where C is the annual mean:
@@ -107,7 +107,7 @@ def chain_link(levels: pd.DataFrame, *, hierarchy: Hierarchy, method: str = "ann
     does a series without any complete year).
 
     Sign-changing items (``hierarchy.is_sign_changing``: P52, P53, YA1, B11, ...) are not
-    chained by ratios (METHODS.md 2.4, a variant of option (c), common practice): their
+    chained by ratios (docs/methods.md §2.4, a variant of option (c), common practice): their
     values at previous-year prices are re-expressed with the previous year's implicit
     deflator of the top aggregate Z containing them (B1GQ for P52, P53, YA1; the highest
     positive ancestor with data in the economy): CLV_i(t) = k_i(t) CLV^Z_{y-1} / C^Z_{y-1},
@@ -399,7 +399,7 @@ def nonadditivity_residual(chained: pd.DataFrame, hierarchy: Hierarchy,
 
     Notes
     -----
-    R_t = CLV^Z_t - sum_i s_i CLV^i_t (METHODS.md 2.3). Zero in the reference year and, under
+    R_t = CLV^Z_t - sum_i s_i CLV^i_t (docs/methods.md §2.3). Zero in the reference year and, under
     annual overlap, in the year after it; not otherwise (ESA 95 ¶10.65).
 
     References

@@ -78,7 +78,7 @@ def volume_contributions(levels: pd.DataFrame, *, hierarchy: Hierarchy, conventi
     s_i the sign, k at previous-year prices, K and C annual values, a = 4 (1 with
     ``annual_rate``: the quarterly average of the year is then the annual value itself).
 
-    ``annual_overlap_exact`` (METHODS.md 3.1-3.3, exactly additive on annual-overlap data):
+    ``annual_overlap_exact`` (docs/methods.md §3.1-3.3, exactly additive on annual-overlap data):
 
     * annual: ctr_i = 100 s_i (K^i_y - C^i_{y-1}) / C^Z_{y-1};
     * quarter on quarter within a year: ctr_i = 100 s_i (k^i(s) - k^i(s-1)) / k^Z(s-1);
@@ -89,18 +89,18 @@ def volume_contributions(levels: pd.DataFrame, *, hierarchy: Hierarchy, conventi
     In the first year of a series (no previous-year values) the current values stand in
     for k and K, as in `valvol.methods.chainlink.chain_link`.
 
-    ``prior_year_weights`` (METHODS.md 3.4), w_{i} = C^i_{y-1} / CLV^i_{y-1}, y the year of
+    ``prior_year_weights`` (docs/methods.md §3.4), w_{i} = C^i_{y-1} / CLV^i_{y-1}, y the year of
     the new period: ctr_i = 100 s_i (CLV^i_t - CLV^i_{t_o}) w_i / (CLV^Z_{t_o} w_Z); annual
     rows have CLV^Z_{y-1} w_Z = C^Z_{y-1}. Not additive across the year boundary and year
     on year: the residual is reported.
 
-    ``fisher`` (METHODS.md 3.5), current-price form with x = s_i C^i and the price relative
+    ``fisher`` (docs/methods.md §3.5), current-price form with x = s_i C^i and the price relative
     r_i = p^i_t / p^i_{t_o}, p = C / CLV: ctr_i = 100 [(V_t/V_{t_o})(x_{i,t}/r_i - x_{i,t_o})
     + Q^F (x_{i,t} - x_{i,t_o} r_i)] / [V_t + Q^F sum_j x_{j,t_o} r_j], V = sum x; the
     contributions add up to the Fisher index of the comparison (for year-on-year
     quarters the direct Fisher index between t_o and t, so chained data leave a residual).
 
-    Sign-changing components (METHODS.md 3.6): the formulas above are level differences
+    Sign-changing components (docs/methods.md §3.6): the formulas above are level differences
     and apply unchanged under ``annual_overlap_exact``; under ``prior_year_weights`` the weight and
     under ``fisher`` the price relative are those of the item's top aggregate (the
     aggregate whose deflator values it in `chain_link`).
@@ -216,7 +216,7 @@ def _compute(convention: str, rows: pd.DataFrame, lu: Lookup, sid: np.ndarray, z
 
 def _annual_overlap_exact(lu: Lookup, sid: np.ndarray, zsid: np.ndarray, sign: np.ndarray, year: np.ndarray,
               qn: np.ndarray, yo: np.ndarray, qo: np.ndarray, a: float) -> np.ndarray:
-    """METHODS.md 3.1-3.3: annual, within-year and two-step (year-boundary) contributions."""
+    """docs/methods.md §3.1-3.3: annual, within-year and two-step (year-boundary) contributions."""
     k_n, k_o = lu.get("k", sid, year, qn), lu.get("k", sid, yo, qo)
     kz_o = lu.get("k", zsid, yo, qo)
     big_k, big_c = lu.get("k", sid, year - 1, 0), lu.get("c", sid, year - 1, 0)

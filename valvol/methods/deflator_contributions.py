@@ -193,7 +193,7 @@ def deflator_contributions(
 
     Notes
     -----
-    ``annual_overlap_exact`` (METHODS.md 4.1, P = c/k on the previous-year base, s_i the sign, Z the
+    ``annual_overlap_exact`` (docs/methods.md §4.1, P = c/k on the previous-year base, s_i the sign, Z the
     aggregate): annual ctr_i = 100 s_i (C^i_y - K^i_y)/K^Z_y; within a year
     ctr_i = 100 s_i [c^i(s)/k^Z(s) - c^i(s-1)/k^Z(s-1)]/P^Z(s-1); across the year boundary
     and year on year ctr_i = d1_i + (1 + G1) d2_i with
@@ -277,7 +277,7 @@ def income_side_contributions(levels: pd.DataFrame, *, real_gdp_item: str = "B1G
     -----
     D = Y/X = ULC + UP + UT + US exactly; ctr_k = 100 (U_{k,t} - U_{k,t_o})/D_{t_o}, the
     level form, defined also when net taxes are near zero or negative; the sum equals
-    100 (D_t/D_{t_o} - 1) to rounding (METHODS.md section 4.2). ULC is W/X, not
+    100 (D_t/D_{t_o} - 1) to rounding (docs/methods.md section 4.2). ULC is W/X, not
     compensation per employee over productivity.
 
     References

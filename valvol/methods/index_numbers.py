@@ -182,7 +182,7 @@ def fisher_contributions(values: pd.DataFrame, prices: pd.DataFrame | None = Non
     Notes
     -----
     ctr_i = 100 (p_{i,t-1} + p_{i,t}/P^F)(q_{i,t} - q_{i,t-1}) / sum_j (p_{j,t-1} + p_{j,t}/P^F) q_{j,t-1},
-    summing to 100 (Q^F - 1) (METHODS.md 3.5).
+    summing to 100 (Q^F - 1) (docs/methods.md §3.5).
 
     References
     ----------
@@ -206,7 +206,7 @@ def fisher_price_contributions(values: pd.DataFrame, prices: pd.DataFrame | None
     Notes
     -----
     ctr^P_i = 100 (q_{i,t-1} + q_{i,t}/Q^F)(p_{i,t} - p_{i,t-1}) / sum_j (q_{j,t-1} + q_{j,t}/Q^F) p_{j,t-1},
-    summing to 100 (P^F - 1) (METHODS.md 3.5, price side).
+    summing to 100 (P^F - 1) (docs/methods.md §3.5, price side).
     """
     p, q = _prices_quantities(values, prices, volumes, signs)
     return _wide_decomposition(q, p)

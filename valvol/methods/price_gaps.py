@@ -96,7 +96,7 @@ def price_gaps(
 
     Notes
     -----
-    *Terms of trade and trading gain* (METHODS.md section 5). Deflators are ratios
+    *Terms of trade and trading gain* (docs/methods.md section 5). Deflators are ratios
     P_i = c_i/CLV_i re-referenced to 1 in the reference year r (annual value). X, M are
     exports and imports at current prices, X/P_x and M/P_m their volumes:
     T = (X - M)/P - (X/P_x - M/P_m), real GDI = GDP/P_GDP + T, terms of trade
@@ -106,7 +106,7 @@ def price_gaps(
     reference year (annual rows), depends on r, and annual T is not the sum of the
     quarterly ones.
 
-    *Growth gaps* (METHODS.md section 6). Deflator growth rates pi come from current and
+    *Growth gaps* (docs/methods.md section 6). Deflator growth rates pi come from current and
     previous-year prices; they equal the growth of annual-overlap implicit deflators. Each
     change is the product of two links between ends valued at common prices
     (`step_values`): annual, one link at the prices of y-1; within a year, one link;
@@ -115,7 +115,7 @@ def price_gaps(
     with P = c/k, R = P(b)/P(a) and e_j = s_j (c_j - k_j P_DD)/k_GDP (j = exports,
     imports with s = -1, other = GDP - DD - X + M):
     R_GDP - R_DD = sum_j [e_j(b) - R_DD e_j(a)] / P_GDP(a), exactly. The annual link gives
-    METHODS.md's pi_GDP - pi_DD = w_X (pi_X - pi_DD) - w_M (pi_M - pi_DD) + other, with
+    docs/methods.md's pi_GDP - pi_DD = w_X (pi_X - pi_DD) - w_M (pi_M - pi_DD) + other, with
     K-share weights w = K_j/K_GDP. Two links combine as
     gap = gap_1 R_GDP,2 + R_DD,1 gap_2, part by part, so the parts add up to the gap.
     First link (docs/derivations/first_link.md, section 6): the annual link of the second

@@ -196,7 +196,7 @@ def reconcile(components: pd.DataFrame, signs: Mapping[str, int], total: pd.Data
         Component series whose first differences are preserved instead of their movements in
         proportion (proportional Denton only), whatever their sign: items that change sign,
         such as inventories and valuables, whose proportional changes are meaningless
-        (METHODS.md 2.4); other series switch to it when ``on_nonpositive`` says so.
+        (docs/methods.md §2.4); other series switch to it when ``on_nonpositive`` says so.
     on_nonpositive
         Proportional Denton only, for a movable component with a zero or negative value
         (inventories, valuables): ``"additive"`` (default) preserves its first differences
@@ -278,7 +278,7 @@ def reconcile(components: pd.DataFrame, signs: Mapping[str, int], total: pd.Data
     estimates", Review of Economic Studies 9(2). IMF, Quarterly National Accounts Manual, 2017
     Edition, ch. 6, §6.5.A (multivariate Denton) and §6.5.B (two-step). Di Fonzo, T. and
     Marini, M. (2011), JRSS-C. Daalmans, J. (2019), Tilburg University thesis. Project notes:
-    METHODS.md sections 7.1 and 7.3.
+    docs/methods.md sections 7.1 and 7.3.
     """
     check_choice("method", method, RECONCILE_METHODS)
     check_choice("on_nonpositive", on_nonpositive, ON_NONPOSITIVE)

@@ -114,7 +114,7 @@ def rereference(chained: pd.DataFrame, current: pd.DataFrame, reference_year: in
 
     Notes
     -----
-    One annual factor per series for its annual and quarterly values (METHODS.md 1):
+    One annual factor per series for its annual and quarterly values (docs/methods.md §1):
     CLV'_t = CLV_t C_{r'} / CLV_{r'}. Growth rates are unchanged; the quarters of r' no
     longer add up. A sign-changing item takes the factor of its top aggregate (consistent
     with `chain_link`, where its volume is re-expressed with that aggregate's deflator);

@@ -162,7 +162,7 @@ def revisions(earlier: dict[str, pd.DataFrame], later: dict[str, pd.DataFrame]) 
     References
     ----------
     OECD/Eurostat, *Guidelines on Revisions Policy and Analysis* (names and sign convention);
-    Office for Statistics Regulation, review of UK GDP revisions, Annex A (METHODS.md section 8).
+    Office for Statistics Regulation, review of UK GDP revisions, Annex A (docs/methods.md section 8).
     """
     e = long_measures(earlier, vintage="earlier")
     lt = long_measures(later, vintage="later")
@@ -233,7 +233,7 @@ def revision_summary(revs: pd.DataFrame, *, test: str = "student_t", hac_lags: i
     ----------
     OECD/Eurostat, *Guidelines on Revisions Policy and Analysis* (MR, MAR, RMAR, RMSR, bias
     test); ONS, *GDP revisions in Blue Book 2020* (2023), Table 1 (two-tailed 5% test);
-    Newey & West (1987), Econometrica 55(3) (Bartlett-weighted HAC variance); METHODS.md section 8.
+    Newey & West (1987), Econometrica 55(3) (Bartlett-weighted HAC variance); docs/methods.md section 8.
     """
     if test not in ("student_t", "normal"):
         raise ConfigError(f"revision test must be 'student_t' or 'normal', not {test!r}")
@@ -321,7 +321,7 @@ def revision_triangle(vintages: list[tuple[str, dict[str, pd.DataFrame]]], *, it
     References
     ----------
     OECD, Main Economic Indicators revisions database (layout: rows reference periods, columns
-    vintages, diagonals k-th estimates); ONS revisions triangles; METHODS.md section 8.
+    vintages, diagonals k-th estimates); ONS revisions triangles; docs/methods.md section 8.
     """
     names = [str(v[0]) for v in vintages]
     dupes = sorted({x for x in names if names.count(x) > 1})
