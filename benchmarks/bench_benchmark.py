@@ -22,7 +22,8 @@ import time
 import numpy as np
 import pandas as pd
 
-from valvol.methods.benchmark import chow_lin, denton
+from valvol.methods.benchmark import denton
+from valvol.methods.chow_lin import chow_lin
 from valvol.methods.reconcile import reconcile
 
 

@@ -193,9 +193,9 @@ def _prune(args: argparse.Namespace) -> int:
 
 
 def _revisions(args: argparse.Namespace) -> int:
-    from valvol import revise
+    from valvol import vintage_revisions
 
-    report = revise.compare(args.out, args.earlier, args.later, write=args.write, triangle=args.triangle)
+    report = vintage_revisions.compare(args.out, args.earlier, args.later, write=args.write, triangle=args.triangle)
     print(report)
     return 0
 

@@ -40,7 +40,7 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from valvol import db, reconciliation
+from valvol import db, reconcile_stage
 from valvol.config import Config, load_config
 from valvol.derive import TABLES
 from valvol.errors import InputError, Problem
@@ -177,7 +177,7 @@ def validate(run: Run) -> None:
     as_read = ["value_text", "period_text"]  # located problems read them from the rows file
     workfiles.write_frame(run.work / VALIDATED_FILE, accounts.drop(columns=as_read, errors="ignore"))
     workfiles.write_frame(run.work / INDEXES_FILE, indexes.drop(columns=as_read, errors="ignore"))
-    if not reconciliation.enabled(run.config):  # else the derive chunks stage the adjusted rows
+    if not reconcile_stage.enabled(run.config):  # else the derive chunks stage the adjusted rows
         for name, table in staged.items():
             workfiles.write_frame(run.work / STAGED_FILE.format(name), table)
     counts = accounts["economy"].value_counts().sort_index()
@@ -193,15 +193,15 @@ def reconcile(run: Run) -> None:
     Rewrites ``validated.arrow`` with the adjusted quarters and writes the
     ``reconciliation`` report and its before/after checks (empty when not asked for).
     """
-    if reconciliation.enabled(run.config):
+    if reconcile_stage.enabled(run.config):
         rows = workfiles.read_frame(run.work / VALIDATED_FILE)
-        rows, report, checks = reconciliation.run(rows, run.config, run.accounts_dir)
+        rows, report, checks = reconcile_stage.run(rows, run.config, run.accounts_dir)
         workfiles.write_frame(run.work / VALIDATED_FILE, rows)
         log.info("reconcile: %d quarterly values adjusted", int((report["adjustment"].abs() > 0).sum()))
     else:
-        report = pd.DataFrame(columns=reconciliation.REPORT_COLUMNS)
-        checks = pd.DataFrame(columns=reconciliation.CHECK_COLUMNS)
-    workfiles.write_frame(run.work / RECONCILIATION_FILE, reconciliation.typed_report(report))
+        report = pd.DataFrame(columns=reconcile_stage.REPORT_COLUMNS)
+        checks = pd.DataFrame(columns=reconcile_stage.CHECK_COLUMNS)
+    workfiles.write_frame(run.work / RECONCILIATION_FILE, reconcile_stage.typed_report(report))
     workfiles.write_frame(run.work / RECONCILE_CHECKS_FILE, checks.astype({"value": "float64", "tolerance": "float64"}))
 
 
@@ -584,7 +584,7 @@ def reconciled_accounts(accounts_dir: str | Path, to_dir: str | Path) -> pd.Data
         rows = pd.concat([workfiles.read_frame(run.work / VALIDATED_FILE),
                           workfiles.read_frame(run.work / INDEXES_FILE)])
         report = workfiles.read_frame(run.work / RECONCILIATION_FILE)
-    reconciliation.export_accounts(rows, report, run.config, Path(accounts_dir), Path(to_dir))
+    reconcile_stage.export_accounts(rows, report, run.config, Path(accounts_dir), Path(to_dir))
     log.info("wrote reconciled accounts (%d rows) and the report to %s", len(rows), to_dir)
     return report
 
@@ -603,7 +603,8 @@ def result_of(target: Path, unchanged: bool = False) -> RebuildResult:
 
 def _revisions_against_latest(out_dir: Path | None, work: Path) -> tuple[str | None, dict[str, pa.Table]]:
     """Revisions of the tables written in ``work`` against the latest published vintage, and its name."""
-    from valvol.methods.revisions import revision_summary, revisions
+    from valvol.methods.revision_statistics import revision_summary
+    from valvol.methods.revisions import revisions
 
     latest = out_dir / pub.LATEST if out_dir is not None else None
     if latest is None or not (latest / MANIFEST_FILE).exists():

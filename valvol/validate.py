@@ -218,7 +218,7 @@ def validate_rows(rows: pd.DataFrame, config: Config, accounts_dir: Path,
     for that (`valvol.staging.STAGED_TABLES`) are returned as Arrow tables. Raises
     `InputError` with every problem found.
     """
-    from valvol import db, reconciliation
+    from valvol import db, reconcile_stage
     from valvol.staging import stage_accounts, staged_tables
 
     problems = list(problems)
@@ -247,7 +247,7 @@ def validate_rows(rows: pd.DataFrame, config: Config, accounts_dir: Path,
     ok, problems = convert(ok, config)
     if problems:
         raise InputError(problems)
-    moved, rebalanced = reconciliation.adjusted_items(config)  # checked again after reconciliation
+    moved, rebalanced = reconcile_stage.adjusted_items(config)  # checked again after reconciliation
     bases = set(config.benchmark.price_bases) | set(config.reconcile.price_bases)
     con = db.connect()
     try:

@@ -20,7 +20,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from valvol.errors import ConfigError, InputError
-from valvol.methods.benchmark import YEAR_FROM_QUARTERS, chow_lin, denton
+from valvol.methods.benchmark import YEAR_FROM_QUARTERS, denton
+from valvol.methods.chow_lin import chow_lin
 
 EXAMPLE_8_8 = Path(__file__).resolve().parents[1] / "reference_data" / "fisher_chain_denton_worked_example.csv"
 SETTINGS = settings(max_examples=50, deadline=None)

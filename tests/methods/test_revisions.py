@@ -30,10 +30,10 @@ from scipy import stats
 
 from valvol.errors import ConfigError, InputError
 from valvol.methods.reference_year import reference_years
+from valvol.methods.revision_statistics import revision_summary
 from valvol.methods.revisions import (
     kth_estimates,
     reference_year_changes,
-    revision_summary,
     revision_triangle,
     revisions,
     split_contribution_measure,

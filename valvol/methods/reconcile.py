@@ -32,18 +32,17 @@ import scipy.sparse as sp
 
 from valvol.errors import ConfigError, InputError, Problem
 from valvol.frames import period_label
-from valvol.methods.benchmark import (
-    ON_NONPOSITIVE,
+from valvol.methods.benchmark import ON_NONPOSITIVE
+from valvol.methods.series_panel import (
     YEAR_FROM_QUARTERS,
     check_choice,
-    difference_gram,
     key_columns,
     require_columns,
     series_codes,
     series_problem,
-    solve_kkt,
     sorted_quarters,
 )
+from valvol.methods.sparse_systems import difference_gram, solve_kkt
 
 RECONCILE_METHODS = ("proportional_denton", "wls")
 REPORT_COLUMNS = ["series", "period", "year", "quarter", "before", "after", "adjustment", "adjustment_pct",

@@ -11,7 +11,8 @@ from pathlib import Path
 import pandas as pd
 
 from valvol.errors import ValvolError
-from valvol.methods.revisions import kth_estimates, revision_summary, revision_triangle, revisions
+from valvol.methods.revision_statistics import revision_summary
+from valvol.methods.revisions import kth_estimates, revision_triangle, revisions
 from valvol.vintages import list_vintages, read_tables, resolve
 
 COMPARED = ("levels", "deflators", "growth", "volume_contributions", "deflator_contributions")

@@ -135,8 +135,9 @@ def _growth(df: pd.DataFrame, col: str) -> pd.Series:
 
 def run(rows: pd.DataFrame, config: Config, accounts_dir: Path) -> tuple[pd.DataFrame, pd.DataFrame, pd.DataFrame]:
     """Benchmark and reconcile ``rows`` (validated accounts rows); return (rows, report, checks)."""
-    from valvol.methods import benchmark as bm
     from valvol.methods import reconcile as rc
+    from valvol.methods.benchmark import denton
+    from valvol.methods.chow_lin import chow_lin
 
     given = _benchmark_file(accounts_dir, config)
     annual_rate = config.levels_at_annual_rate
@@ -155,10 +156,10 @@ def run(rows: pd.DataFrame, config: Config, accounts_dir: Path) -> tuple[pd.Data
         ind = ind.merge(targets.loc[targets["given"], by].drop_duplicates(), on=by)
         if len(ind):
             if b.method == "chow_lin":
-                out, _ = bm.chow_lin(ind, targets[targets["given"]], rho=b.rho, year_from_quarters=sf, by=by,
+                out, _ = chow_lin(ind, targets[targets["given"]], rho=b.rho, year_from_quarters=sf, by=by,
                                      held=targets[~targets["given"]])
             else:
-                out = bm.denton(ind, targets, method="proportional" if b.method == "proportional_denton" else "additive",
+                out = denton(ind, targets, method="proportional" if b.method == "proportional_denton" else "additive",
                                 year_from_quarters=sf, on_nonpositive=b.on_nonpositive, by=by)
             out = _snap(out.rename(columns={"series": "item", "indicator": "before", "value": "after"}))
             out["constraint"] = np.where(out["benchmarked"], "annual benchmark " + out["year"].astype(str),
