@@ -41,13 +41,13 @@ GOOD = HEADER + "".join(quarters(i, b, v) for i, v in (("P31_S14", 60.0), ("P3_S
 
 def snapshot(root: Path) -> dict[str, str]:
     """Every file (SHA-256) and symbolic link (its target) under ``root``, not following links;
-    the output lock ``.lock`` aside (a rebuild may take it even when it then refuses)."""
+    the output lock ``.lock`` (and its holder file) aside (a rebuild may take it even when it then refuses)."""
     out = {}
     for folder, dirs, files in os.walk(root):
         for name in dirs + files:
             path = Path(folder) / name
             rel = path.relative_to(root).as_posix()
-            if rel == ".lock":
+            if rel in (".lock", ".lock.pid"):
                 continue
             if path.is_symlink():
                 out[rel] = "-> " + os.readlink(path)

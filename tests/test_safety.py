@@ -64,7 +64,7 @@ def test_two_rebuilds_at_once_one_waits_nothing_corrupted(demo_dir, tmp_path):
     first = _start(demo_dir, out)
     deadline = time.monotonic() + 60
     while time.monotonic() < deadline:  # wait until the first one holds the lock
-        text = (out / ".lock").read_text() if (out / ".lock").exists() else ""
+        text = (out / ".lock.pid").read_text() if (out / ".lock.pid").exists() else ""
         if text.strip() == str(first.pid):
             break
         time.sleep(0.05)

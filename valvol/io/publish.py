@@ -8,7 +8,7 @@ Layout of ``--out DIR``::
       <table>.parquet           links through ``latest`` (levels, deflators, growth, checks, ...)
       manifest.json, valvol.duckdb   links through ``latest``
       .staging/<id>/            work of a running rebuild; never visible as a vintage
-      .lock                     held (flock) by the rebuild writing to DIR
+      .lock, .lock.pid          the file lock held by the rebuild writing to DIR, and its holder
 
 A rebuild works only inside ``.staging/``; the finished folder is renamed into
 ``vintages/`` and only then does ``latest`` move, with one ``rename(2)``.
@@ -18,7 +18,6 @@ its staging folder is removed by the next rebuild.
 
 from __future__ import annotations
 
-import fcntl
 import hashlib
 import os
 import shutil
@@ -26,6 +25,8 @@ import uuid
 from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
+
+from filelock import FileLock, Timeout
 
 from valvol.errors import ConfigError, OutputBusyError, PublishError
 
@@ -82,32 +83,37 @@ def check_output_folder(accounts_dir: str | Path, out_dir: str | Path) -> None:
 
 @contextmanager
 def output_lock(out_dir: Path) -> Iterator[None]:
-    """Hold the output root's lock for one rebuild; fail at once if another rebuild holds it."""
+    """Hold the output root's lock for one rebuild; fail at once if another rebuild holds it.
+
+    The lock is an operating-system file lock on ``DIR/.lock`` taken through ``filelock``
+    (``flock`` on POSIX systems, ``msvcrt`` locking on Windows), so it is released by the
+    system when the holding process dies; ``DIR/.lock.pid`` names the holder for the message.
+    """
     try:
         out_dir.mkdir(parents=True, exist_ok=True)
-        fh = (out_dir / ".lock").open("a+")
-    except OSError as exc:  # read-only, no permission, a file in the way, a name too long
-        raise ConfigError(f"--out: output folder {out_dir} cannot be written: {exc.strerror or exc}") from None
-    try:
-        fcntl.flock(fh, fcntl.LOCK_EX | fcntl.LOCK_NB)
-    except BlockingIOError:
-        fh.seek(0)
-        holder = fh.read().strip() or "unknown"
-        fh.close()
+        lock = FileLock(out_dir / ".lock", timeout=0)
+        lock.acquire()
+    except Timeout:
+        holder = _read_holder(out_dir)
         raise OutputBusyError(
             f"another rebuild is writing to {out_dir} (pid {holder}); wait for it to finish and retry"
         ) from None
+    except OSError as exc:  # read-only, no permission, a file in the way, a name too long
+        raise ConfigError(f"--out: output folder {out_dir} cannot be written: {exc.strerror or exc}") from None
+    pid_file = out_dir / ".lock.pid"
     try:
-        fh.seek(0)
-        fh.truncate()
-        fh.write(str(os.getpid()))
-        fh.flush()
+        pid_file.write_text(str(os.getpid()))
         yield
     finally:
-        fh.seek(0)
-        fh.truncate()
-        fcntl.flock(fh, fcntl.LOCK_UN)
-        fh.close()
+        pid_file.unlink(missing_ok=True)
+        lock.release()
+
+
+def _read_holder(out_dir: Path) -> str:
+    try:
+        return (out_dir / ".lock.pid").read_text().strip() or "unknown"
+    except OSError:
+        return "unknown"
 
 
 def new_staging_dir(out_dir: Path) -> Path:
