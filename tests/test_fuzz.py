@@ -17,10 +17,13 @@ from pathlib import Path
 
 import pyarrow as pa
 import pyarrow.parquet as pq
+import pytest
 from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 
 from valvol.cli import main
+
+pytestmark = pytest.mark.slow  # about a minute of generated tables
 
 COLUMNS = ["economy", "period", "item", "price_basis", "value", "adjustment", "unit"]
 PERIODS = [f"{y}-Q{q}" for y in (2019, 2020, 2021) for q in range(1, 5)] + ["2019", "2020", "2021"]

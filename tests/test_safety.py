@@ -36,6 +36,7 @@ def _published_state(out: Path) -> dict:
     return {p.name: hashlib.sha256(p.read_bytes()).hexdigest() for p in sorted(latest.glob("*.parquet"))}
 
 
+@pytest.mark.slow
 def test_sigkill_at_any_point_leaves_previous_vintage_intact(demo_dir, tmp_path):
     out = tmp_path / "out"
     pipeline.rebuild(demo_dir, out, charts=False)
@@ -94,6 +95,7 @@ def test_invalid_input_leaves_outputs_untouched_from_the_cli(demo_dir, tmp_path)
 
 
 @pytest.mark.flow
+@pytest.mark.slow
 def test_scheduled_rebuild_fires_and_stops_cleanly(demo_dir, tmp_path):
     """A real local Prefect server and a 10-second interval schedule (docs/operations.md §5)."""
     out = tmp_path / "out"

@@ -380,7 +380,7 @@ def test_elementary_series_techniques_coincide(make_panel, seed, n, fy, r_offset
     """docs/methods.md §2.2 [DERIVED]: for a single elementary series (k = P_{y-1} q) the three
     techniques give identical series; with PYP in the first year CLV = P_r q exactly."""
     h = Hierarchy.from_mapping({"T": ["X"]})
-    panels = _economies(make_panel, seed, n, h, {"X": (0.5, 2.0, 1.0, 50.0)}, first_year_pyp=fy)
+    panels = _economies(make_panel, seed, n, h, {"X": (0.5, 2.0, 1.0, 50.0)}, first_year_price=0.9 if fy else None)
     lv = pd.concat([x[0] for x in panels], ignore_index=True)
     r = 2000 + r_offset
     key = ["economy", "item", "frequency", "year", "quarter"]

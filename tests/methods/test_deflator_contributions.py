@@ -24,7 +24,7 @@ import pandas as pd
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from support import first_link_panel, make_panel, rows_of, uk_panel, uk_release
+from support import chained_panel, first_link_panel, rows_of, uk_panel, uk_release
 
 from valvol.errors import ConfigError, InputError
 from valvol.frames import LEVEL_COLUMNS, period_label
@@ -90,7 +90,7 @@ def random_economy(seed, n_years=3, **kw):
     spec = [("P3", [("P31_S14", 1), ("P3_S13", 1)]), ("P5", [("P51G", 1), ("P52", 1)]),
             ("B1GQ", [("P3", 1), ("P5", 1), ("P6", 1), ("P7", -1)])]
     hier = Hierarchy.from_mapping({a: [("-" if s < 0 else "") + i for i, s in c] for a, c in spec})
-    return make_panel(prices, quantities, spec, **kw), hier
+    return chained_panel(prices, quantities, spec, **kw), hier
 
 
 # --- Statistics Canada Table 2.12 ------------------------------------------------------------
@@ -310,7 +310,7 @@ def test_import_price_rise_gives_negative_contribution():
     prices["P7"] = np.r_[np.ones(4), 1.1 * np.ones(4)]
     quantities = {"P31_S14": np.full(n, 80.0), "P6": np.full(n, 40.0), "P7": np.full(n, 30.0)}
     spec = [("B1GQ", [("P31_S14", 1), ("P6", 1), ("P7", -1)])]
-    lv = make_panel(prices, quantities, spec)
+    lv = chained_panel(prices, quantities, spec)
     hier = Hierarchy.from_mapping({"B1GQ": ["P31_S14", "P6", "-P7"]})
     out = deflator_contributions(lv, hierarchy=hier)
     a = out[(out["period"] == "2001") & (out["horizon"] == "prev_year")].set_index("item")["contribution_pp"]

@@ -15,7 +15,7 @@ import pandas as pd
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from support import first_link_panel, make_panel, rows_of, uk_panel, uk_release
+from support import chained_panel, first_link_panel, rows_of, uk_panel, uk_release
 
 from valvol.errors import ConfigError, InputError
 from valvol.hierarchy import Hierarchy
@@ -75,9 +75,9 @@ def test_property_import_price_rise_with_and_without_pass_through(seed, delta, n
     extra = (shocked_m[-1] - prices["P7"][-1]) * quantities["P7"][-1]
     full_c = prices["P31_S14"].copy()
     full_c[-1] += extra / quantities["P31_S14"][-1]
-    lv = pd.concat([make_panel(prices, quantities, SPEC, economy="BASE"),
-                    make_panel(prices | {"P7": shocked_m, "P31_S14": full_c}, quantities, SPEC, economy="FULL"),
-                    make_panel(prices | {"P7": shocked_m}, quantities, SPEC, economy="NONE")], ignore_index=True)
+    lv = pd.concat([chained_panel(prices, quantities, SPEC, economy="BASE"),
+                    chained_panel(prices | {"P7": shocked_m, "P31_S14": full_c}, quantities, SPEC, economy="FULL"),
+                    chained_panel(prices | {"P7": shocked_m}, quantities, SPEC, economy="NONE")], ignore_index=True)
     d = implicit_deflators(lv, hierarchy=HIER)
     d = d[d["period"].isin(["2002-Q4", "2002"]) & d["item"].isin(["P31_S14", "B1GQ"])]
     d = d.pivot_table(index="period", columns=["economy", "item"], values="deflator")
@@ -100,7 +100,7 @@ def test_property_import_price_rise_with_and_without_pass_through(seed, delta, n
 def test_property_trading_gain_zero_in_reference_year(seed, ref, numeraire, explicit):
     """T = 0 in the reference year (annual) when all deflators equal 1 there (docs/methods.md §5)."""
     prices, quantities = economy_data(seed)
-    lv = make_panel(prices, quantities, SPEC, ref_year=2001 if explicit else ref)
+    lv = chained_panel(prices, quantities, SPEC, ref_year=2001 if explicit else ref)
     out = price_gaps(lv, hierarchy=HIER, numeraire=numeraire, reference_year=ref if explicit else None)
     a = out[(out["frequency"] == "A") & (out["year"] == ref)].set_index("measure")["value"]
     gdp = lv[(lv["item"] == "B1GQ") & (lv["price_basis"] == "current") & (lv["period"] == str(ref))]
@@ -117,7 +117,7 @@ def test_trading_gain_closed_forms_and_final_demand_numeraire():
     DERIVED); the final-demand numeraire equals the implicit deflator of P3 + P51G chained by
     annual overlap (here an explicit aggregate DFD_CHECK of the test panel)."""
     prices, quantities = economy_data(5)
-    lv = make_panel(prices, quantities, SPEC, ref_year=2001)
+    lv = chained_panel(prices, quantities, SPEC, ref_year=2001)
     w = lv.pivot_table(index=["period", "item"], columns="price_basis", values="value").reset_index()
     w = w.pivot(index="period", columns="item")
     x, m = w[("current", "P6")], w[("current", "P7")]
@@ -142,7 +142,7 @@ def test_trading_gain_closed_forms_and_final_demand_numeraire():
 
 def test_numeraire_and_reference_year_errors():
     prices, quantities = economy_data(2)
-    lv = make_panel(prices, quantities, SPEC)
+    lv = chained_panel(prices, quantities, SPEC)
     with pytest.raises(ConfigError):
         price_gaps(lv, hierarchy=HIER, numeraire="harmonic")
     off = lv.copy()
@@ -171,7 +171,7 @@ def test_property_gap_split_adds_exactly_and_matches_deflator_growth(seed):
     """gap = export part + import part + other part, to 1e-9, every horizon (docs/methods.md §6);
     the gaps equal differences of implicit-deflator growth rates of annual-overlap data."""
     prices, quantities = economy_data(seed)
-    lv = make_panel(prices, quantities, SPEC)
+    lv = chained_panel(prices, quantities, SPEC)
     g = wide(price_gaps(lv, hierarchy=HIER))
     split = g["gap_export_price_part"] + g["gap_import_price_part"] + g["gap_other_part"]
     np.testing.assert_allclose(split, g["gap_gdp_vs_domestic_demand"], atol=1e-9)
@@ -187,7 +187,7 @@ def test_gap_annual_k_share_formula_and_derived_domestic_demand():
     """Annual link: pi_GDP - pi_DD = w_X (pi_X - pi_DD) - w_M (pi_M - pi_DD) + other, w = K_j/K_GDP
     (docs/methods.md §6); without a P3_P5 item the domestic demand is P3 + P5 (same result)."""
     prices, quantities = economy_data(9)
-    lv = make_panel(prices, quantities, SPEC)
+    lv = chained_panel(prices, quantities, SPEC)
     g = wide(price_gaps(lv, hierarchy=HIER))
     a = lv[(lv["frequency"] == "A") & (lv["year"] == 2002)].pivot(index="item", columns="price_basis", values="value")
     c, k = a["current"], a["previous_year"]
@@ -340,7 +340,7 @@ def test_cpi_quarterly_means_growth_and_gap_to_household_deflator():
     """Monthly CPI enters as the mean of its levels in the quarter (docs/methods.md §6, common
     practice); growth per horizon; gap = CPI growth - household deflator growth."""
     prices, quantities = economy_data(4)
-    lv = make_panel(prices, quantities, SPEC)
+    lv = chained_panel(prices, quantities, SPEC)
     months = 100 * 1.004 ** np.arange(35)  # 2000-01 .. 2002-11: 2002-Q4 incomplete
     out = price_gaps(lv, hierarchy=HIER, cpi=cpi_monthly(months))
     q = out[out["measure"] == "cpi_quarterly"].set_index("period")["value"]
@@ -365,7 +365,7 @@ def test_cpi_quarterly_means_growth_and_gap_to_household_deflator():
 
 def test_cpi_frame_errors():
     prices, quantities = economy_data(4)
-    lv = make_panel(prices, quantities, SPEC)
+    lv = chained_panel(prices, quantities, SPEC)
     bad = cpi_monthly(np.full(12, 100.0))
     bad.loc[3, "month"] = 13
     bad.loc[5, "value"] = -1.0
@@ -383,7 +383,7 @@ def test_final_demand_numeraire_when_the_first_year_is_the_reference():
     # the first year of accounts has no previous-year prices: the domestic final demand
     # deflator's chain starts there at 1 (docs/methods.md section 5; first-year convention of 2.2)
     prices, quantities = economy_data(3)
-    lv = make_panel(prices, quantities, SPEC, ref_year=2000)
+    lv = chained_panel(prices, quantities, SPEC, ref_year=2000)
     lv = lv[~((lv["price_basis"] == "previous_year") & (lv["year"] == 2000))]
     out = price_gaps(lv, hierarchy=HIER, numeraire="domestic_final_demand", reference_year=2000)
     gain = out.query("measure == 'trading_gain' and frequency == 'A'").set_index("year")["value"]

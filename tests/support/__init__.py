@@ -12,6 +12,7 @@ import numpy as np
 import pandas as pd
 
 from valvol.frames import LEVEL_COLUMNS, period_label
+from valvol.hierarchy import Hierarchy
 
 #: UK ONS Quarterly National Accounts, release of 31 March 2023 (tests/reference_data/README.md).
 UK_FILE = Path(__file__).resolve().parents[1] / "reference_data" / "uk_ons_qna_2023-03-31.csv"
@@ -23,49 +24,80 @@ def rows_of(economy, item, basis, freq, years, quarters, values):
                          "value": np.asarray(values, dtype="float64")})
 
 
-def make_panel(prices, quantities, spec=(), *, first_year=2000, ref_year=2000, economy="XX"):
-    """Quarterly and annual current, previous-year-price and annual-overlap chained values.
+def panel_from_quantities(prices, quantities, aggregates=(), *, economy="E", start_year=2000,
+                          first_year_price=None, annual_rate=False, chain_linked=False, ref_year=None):
+    """The one synthetic panel builder: levels from quarterly prices and quantities of items.
 
-    PYP = quantity x unit value of the previous year (first year: its own), QNA 2017 ch. 8;
-    CLV_y = CLV_{y-1} K_y / C_{y-1}, CLV_r = C_r, CLV(s, y) = k(s, y) CLV_y / K_y (docs/methods.md
-    2.2). ``spec``: bottom-up (aggregate, [(item, sign), ...]) summed at current and
-    previous-year prices. Series with a non-positive value get no chained rows.
+    c = p q; the annual average price is the unit value P_y = sum_s p|q| / sum_s |q| (the mean
+    price in a year whose quantities are all zero); previous-year prices k(s,y) = P_{y-1} q(s,y)
+    (IMF, *Quarterly National Accounts Manual, 2017 Edition*, ch. 8, para. 8.17, eq. (2)). The
+    first year has no k unless ``first_year_price`` f is given: then k = f P_y q (f = 1, its own
+    prices). ``aggregates``: a `Hierarchy` or (aggregate, [(item, sign), ...]) pairs, summed
+    bottom-up at both price bases where all components are present. Annual values are sums of
+    the quarters (means with ``annual_rate``). With ``chain_linked`` (first year priced, sums)
+    every series positive at both bases also gets annual-overlap volumes
+    CLV_y = CLV_{y-1} K_y / C_{y-1}, CLV_r = C_r (r = ``ref_year``, default the first year),
+    CLV(s,y) = k(s,y) CLV_y / K_y (docs/methods.md section 2.2).
     """
-    n = len(next(iter(prices.values())))
-    yi = np.arange(n) // 4
-    years, quarters = first_year + yi, np.arange(n) % 4 + 1
-    ck = {}
-    for it in prices:
-        p, q = np.asarray(prices[it], float), np.asarray(quantities[it], float)
-        unit = np.bincount(yi, p * q) / np.bincount(yi, q)
-        ck[it] = (p * q, np.r_[unit[0], unit[:-1]][yi] * q)
-    for agg, comps in spec:
-        ck[agg] = tuple(sum(s * ck[i][j] for i, s in comps) for j in (0, 1))
-    cols: dict[str, list] = {"item": [], "price_basis": [], "frequency": [], "year": [], "quarter": [], "value": []}
+    n = len(next(iter(quantities.values())))
+    yidx = np.arange(n) // 4
+    years, quarters = start_year + yidx, np.arange(n) % 4 + 1
+    n_years = int(yidx.max()) + 1
+    counts = np.bincount(yidx)
 
-    def add(item, basis, freq, yrs, qtrs, values):
-        for key, v in zip(cols, (item, basis, freq, yrs, qtrs, values), strict=True):
-            cols[key].append(np.broadcast_to(np.asarray(v), (len(values),)))
+    def per_year(x, how="sum"):
+        tot = np.bincount(yidx, weights=x)
+        return tot / counts if how == "mean" else tot
 
-    ay = first_year + np.arange(yi[-1] + 1)
-    zero = np.zeros(len(ay), dtype="int64")
-    for it, (c, k) in ck.items():
-        ca, ka = np.bincount(yi, c), np.bincount(yi, k)
-        add(it, "current", "Q", years, quarters, c)
-        add(it, "previous_year", "Q", years, quarters, k)
-        add(it, "current", "A", ay, zero, ca)
-        add(it, "previous_year", "A", ay, zero, ka)
-        if (c > 0).all() and (k > 0).all():
-            va = np.cumprod(np.r_[1.0, ka[1:] / ca[:-1]])
-            va *= ca[ref_year - first_year] / va[ref_year - first_year]
-            add(it, "chain_linked", "Q", years, quarters, k * (va / ka)[yi])
-            add(it, "chain_linked", "A", ay, zero, va)
-    lv = pd.DataFrame({key: np.concatenate(v) for key, v in cols.items()})
-    lv.insert(0, "economy", economy)
-    lv = lv.astype({"item": "str", "price_basis": "str", "frequency": "str", "year": "int64", "quarter": "int64",
-                    "value": "float64"})
+    c, k = {}, {}
+    for item, q in quantities.items():
+        p, q = np.asarray(prices[item], dtype="float64"), np.asarray(q, dtype="float64")
+        c[item] = p * q
+        weight = per_year(np.abs(q))
+        unit = np.where(weight > 0, per_year(p * np.abs(q)) / np.where(weight > 0, weight, 1.0),
+                        per_year(p, "mean"))
+        first = np.nan if first_year_price is None else first_year_price * unit[0]
+        k[item] = np.r_[first, unit[:-1]][yidx] * q
+    if hasattr(aggregates, "aggregates"):  # a Hierarchy
+        pairs = [(a, [(x.item, x.sign) for x in aggregates.aggregates[a]]) for a in aggregates.order()]
+    else:
+        pairs = list(aggregates)
+    for agg, comps in pairs:
+        if all(i in c for i, _ in comps):
+            c[agg] = sum(sg * c[i] for i, sg in comps)
+            k[agg] = sum(sg * k[i] for i, sg in comps)
+    ay, a0 = start_year + np.arange(n_years), np.zeros(n_years, "int64")
+    how = "mean" if annual_rate else "sum"
+    parts = []
+
+    def add(item, basis, freq, yy, qq, vv):
+        ok = np.isfinite(vv)
+        parts.append(pd.DataFrame({"economy": economy, "item": item, "price_basis": basis, "frequency": freq,
+                                   "year": np.asarray(yy, "int64")[ok], "quarter": np.asarray(qq, "int64")[ok],
+                                   "value": np.asarray(vv, "float64")[ok]}))
+
+    for basis, table in (("current", c), ("previous_year", k)):
+        for item, vals in table.items():
+            add(item, basis, "Q", years, quarters, vals)
+            add(item, basis, "A", ay, a0, per_year(vals, how))
+    if chain_linked:
+        r = (start_year if ref_year is None else ref_year) - start_year
+        for item in c:
+            ca, ka = per_year(c[item]), per_year(k[item])
+            if (c[item] > 0).all() and (k[item] > 0).all():
+                va = np.cumprod(np.r_[1.0, ka[1:] / ca[:-1]])
+                va *= ca[r] / va[r]
+                add(item, "chain_linked", "Q", years, quarters, k[item] * (va / ka)[yidx])
+                add(item, "chain_linked", "A", ay, a0, va)
+    lv = pd.concat(parts, ignore_index=True)
     lv["period"] = period_label(lv["year"], lv["quarter"]).to_numpy()
     return lv[LEVEL_COLUMNS]
+
+
+def chained_panel(prices, quantities, aggregates=(), *, first_year=2000, ref_year=2000, economy="XX"):
+    """`panel_from_quantities` with the first year at its own prices and annual-overlap volumes."""
+    return panel_from_quantities(prices, quantities, aggregates, economy=economy, start_year=first_year,
+                                 first_year_price=1.0, chain_linked=True, ref_year=ref_year)
 
 
 #: Worked example of docs/derivations/first_link.md, section 7: year 2000 (first year, no
@@ -108,38 +140,81 @@ def uk_release() -> pd.DataFrame:
     return d
 
 
-#: Positive expenditure components of UK GDP in the release (reference README).
+#: Expenditure components of UK GDP in the release, with their signs: B1GQ = P31_S14 + P3_S15 +
+#: P3_S13 + P51G + P52 + P53 + P6 - P7 + YA1 (current prices add within +-1 GBP million).
+UK_COMPONENTS = ["P31_S14", "P3_S15", "P3_S13", "P51G", "P52", "P53", "P6", "-P7", "YA1"]
+#: The positive components, whose published volumes are own-deflator annual-overlap links.
 UK_POSITIVE = ["P31_S14", "P3_S15", "P3_S13", "P51G", "P6", "P7"]
+UK_HIERARCHY = Hierarchy.from_mapping({"B1GQ": UK_COMPONENTS})
+
+
+def uk_published_levels(d: pd.DataFrame) -> pd.DataFrame:
+    """Levels panel of the release: published current prices and chained volumes (2019), Q and A."""
+    basis = {"current_prices": "current", "chain_linked_volume": "chain_linked"}
+    x = d[d["measure"].isin(basis)].copy()
+    x["price_basis"] = x["measure"].map(basis)
+    x["value"] = x["value"].astype("float64")
+    return x[LEVEL_COLUMNS].reset_index(drop=True)
+
+
+def uk_previous_year_prices(levels: pd.DataFrame) -> pd.DataFrame:
+    """The one derivation of previous-year prices from the release (docs/methods.md section 10(c)).
+
+    The release publishes none. For GDP and the positive components the published volumes are
+    own-deflator annual-overlap links, which invert exactly: PYP(i,q) = CVM(i,q) CP(i,y-1) /
+    CVM(i,y-1), y the year of quarter q. P52 and P53 (whose volumes are not such links) are
+    valued with GDP's deflator of y-1, and YA1 closes the identity. Annual values are the sums
+    of the quarters; 1995, the first year, has none.
+    """
+    items = ["B1GQ", *UK_POSITIVE, "P52", "P53"]
+    q = levels[(levels["frequency"] == "Q") & levels["item"].isin(items)]
+    cvm = q[q["price_basis"] == "chain_linked"].set_index(["item", "year", "quarter"])["value"]
+    a = levels[levels["frequency"] == "A"].set_index(["item", "price_basis", "year"])["value"]
+    deflator_item = {i: i for i in ["B1GQ", *UK_POSITIVE]} | {"P52": "B1GQ", "P53": "B1GQ"}
+    idx = cvm.index
+    defl_of = np.array([deflator_item[i] for i in idx.get_level_values("item")], dtype=object)
+    prev = idx.get_level_values("year") - 1
+    cp_prev = a.reindex(pd.MultiIndex.from_arrays([defl_of, ["current"] * len(idx), prev])).to_numpy()
+    cvm_prev = a.reindex(pd.MultiIndex.from_arrays([defl_of, ["chain_linked"] * len(idx), prev])).to_numpy()
+    wide = pd.Series(cvm.to_numpy() * cp_prev / cvm_prev, index=idx).dropna().unstack("item")
+    signs = {c.item: c.sign for c in UK_HIERARCHY.aggregates["B1GQ"]}
+    wide["YA1"] = wide["B1GQ"] - sum(signs[i] * wide[i] for i in [*UK_POSITIVE, "P52", "P53"])
+    long = wide.stack().rename("value").reset_index().assign(economy="UK", price_basis="previous_year",
+                                                             frequency="Q")
+    ann = long.groupby(["economy", "item", "price_basis", "year"], as_index=False)["value"].sum()
+    out = pd.concat([long, ann.assign(frequency="A", quarter=0)], ignore_index=True)
+    out["period"] = period_label(out["year"], out["quarter"]).to_numpy()
+    return out[LEVEL_COLUMNS]
+
+
+def uk_additive_panel(levels: pd.DataFrame, pyp: pd.DataFrame) -> pd.DataFrame:
+    """Current prices of GDP and its components plus the derived previous-year prices, additive.
+
+    The published current prices add up only within +-4 GBP million (rounding); YA1 takes that
+    gap too, so the panel is exactly additive at both price bases.
+    """
+    items = ["B1GQ"] + [c.lstrip("-") for c in UK_COMPONENTS]
+    cur = levels[(levels["price_basis"] == "current") & levels["item"].isin(items)].copy()
+    wide = cur.pivot_table(index=["frequency", "year", "quarter"], columns="item", values="value")
+    signs = {c.item: c.sign for c in UK_HIERARCHY.aggregates["B1GQ"]}
+    gap = wide["B1GQ"] - sum(s * wide[i] for i, s in signs.items())
+    ya1 = cur["item"] == "YA1"
+    key = pd.MultiIndex.from_frame(cur.loc[ya1, ["frequency", "year", "quarter"]])
+    cur.loc[ya1, "value"] = cur.loc[ya1, "value"].to_numpy() + gap.reindex(key).to_numpy()
+    return pd.concat([cur, pyp], ignore_index=True).reset_index(drop=True)
 
 
 def uk_panel(d: pd.DataFrame) -> pd.DataFrame:
-    """Current prices, chained volumes and derived previous-year prices of the release.
-
-    As the reference README explains: PYP(i,t) = CVM(i,t) CP(i,y-1)/CVM(i,y-1) for GDP and
-    the positive components; P52 and P53 at GDP's deflator of y-1; YA1 closes the identity
-    at previous-year prices and (within the published +-1 rounding) at current prices.
-    P3 and P5 are summed. 1995 has no previous-year prices.
-    """
-    basis = {"current_prices": "current", "chain_linked_volume": "chain_linked"}
-    items = ["B1GQ", *UK_POSITIVE, "P52", "P53", "YA1"]
-    x = d[d["measure"].isin(basis) & d["item"].isin(items)].assign(price_basis=lambda t: t["measure"].map(basis))
-    w = x.pivot_table(index=["frequency", "year", "quarter"], columns=["price_basis", "item"], values="value")
-    cp, cvm = w["current"], w["chain_linked"]
-    annual = (cp / cvm).xs("A", level="frequency").droplevel("quarter")
-    defl = annual.reindex(w.index.get_level_values("year") - 1).set_axis(w.index)
-    pyp = pd.DataFrame({i: cvm[i] * defl[i] for i in ["B1GQ", *UK_POSITIVE]}
-                       | {i: cvm[i] * defl["B1GQ"] for i in ["P52", "P53"]})
-    cur = cp[items].copy()
-    for t in (cur, pyp):
-        t["YA1"] = t["B1GQ"] - t[UK_POSITIVE[:-1] + ["P52", "P53"]].sum(axis=1) + t["P7"]
-        t["P3"] = t["P31_S14"] + t["P3_S15"] + t["P3_S13"]
-        t["P5"] = t["P51G"] + t["P52"] + t["P53"]
-        t.columns.name = "item"
-    long = pd.concat([t.stack().rename("value").reset_index().assign(price_basis=b)
-                      for b, t in (("current", cur), ("previous_year", pyp))], ignore_index=True)
-    lv = pd.concat([long.assign(economy="UK"), x[x["price_basis"] == "chain_linked"]], ignore_index=True)
-    lv["period"] = period_label(lv["year"], lv["quarter"]).to_numpy()
-    return lv[LEVEL_COLUMNS].dropna().reset_index(drop=True)
+    """The additive panel with P3 and P5 summed and the published chained volumes of its items."""
+    levels = uk_published_levels(d)
+    add = uk_additive_panel(levels, uk_previous_year_prices(levels))
+    parts = {"P3": ["P31_S14", "P3_S15", "P3_S13"], "P5": ["P51G", "P52", "P53"]}
+    key = ["economy", "price_basis", "frequency", "year", "quarter", "period"]
+    sums = [add[add["item"].isin(c)].groupby(key, as_index=False)["value"].sum().assign(item=a)
+            for a, c in parts.items()]
+    items = set(add["item"])
+    clv = levels[(levels["price_basis"] == "chain_linked") & levels["item"].isin(items)]
+    return pd.concat([add, *sums, clv], ignore_index=True)[LEVEL_COLUMNS].reset_index(drop=True)
 
 
 def valvol_command() -> list[str]:
