@@ -199,6 +199,14 @@ def sdmx_to_long(df: pd.DataFrame, name: str, cfg: SdmxConfig) -> tuple[pd.DataF
     for a in attrs:
         if a not in CONSUMED and a != cfg.unit and a != cfg.adjustment:
             out[a.lower()] = text[a]
+    # observations valvol derived (an exported levels table, valvol.io.sdmx_export): derived again
+    if "VALVOL_DERIVED" in attrs:
+        derived = (text["VALVOL_DERIVED"] != "").to_numpy() & keep
+        if derived.any():
+            log.info("%s: %d observation(s) marked VALVOL_DERIVED skipped (valvol derives them again)", name,
+                     int(derived.sum()))
+            keep &= ~derived
+        out = out.drop(columns="valvol_derived")
     # observations flagged missing with no value: no observation
     if "OBS_STATUS" in attrs:
         absent = ((text["OBS_STATUS"] == "M") & value.isin(["", "NaN", "NA"])).to_numpy() & keep
