@@ -49,6 +49,8 @@ STRUCTURE_30 = ("STRUCTURE", "STRUCTURE_ID", "ACTION")
 CONSUMED = ("UNIT_MULT", "DECIMALS", "TIME_FORMAT")
 #: Frequencies and the periods they allow (valvol reads years, quarters and, for price indexes, months).
 FREQ_PERIODS = {"A": r"^\d{4}$", "Q": r"^\d{4}-?Q[1-4]$", "M": r"^\d{4}-\d{2}$"}
+#: Price bases in money terms (a multiplier applies to them; indexes have none).
+MONEY = ("current", "previous_year", "chain_linked")
 #: Multipliers written as words in the unit text (common practice).
 MULT_WORDS = {0: "", 3: "thousand", 6: "million", 9: "billion", 12: "trillion"}
 #: The code part of a ``CODE: label`` header or cell.
@@ -178,21 +180,24 @@ def sdmx_to_long(df: pd.DataFrame, name: str, cfg: SdmxConfig) -> tuple[pd.DataF
         bad = (parsed.isna() | (parsed != parsed.round()) | (parsed.abs() > 15)).to_numpy()
         report(bad, lambda b: "UNIT_MULT " + raw_mult[b].map(found) + " is not a power of ten (a whole number)")
         mult = parsed.fillna(0).round().astype("int64")
+    money = out["price_basis"].isin(MONEY).to_numpy()  # indexes carry no multiplier that matters
     if cfg.unit_mult == "keep":
-        common = mult[keep].groupby(out["economy"][keep]).agg(lambda s: s.mode().iloc[0])
-        other = (mult != out["economy"].map(common).fillna(mult)).to_numpy() & keep
+        pick = keep & money
+        counts = pd.DataFrame({"economy": out["economy"][pick], "mult": mult[pick]}).value_counts()
+        common = counts.reset_index().drop_duplicates("economy").set_index("economy")["mult"]
+        other = (mult != out["economy"].map(common).fillna(mult)).to_numpy() & pick
         report(other, lambda b: ("UNIT_MULT " + mult[b].astype("str") + " where the economy's other series have "
                                  + out["economy"][b].map(common).astype("int64").astype("str")
                                  + ": values would not add up; set [sdmx] unit_mult to the power of ten to scale "
                                    "them to (e.g. 6)"))
-        words = mult.map(lambda m: MULT_WORDS.get(m, f"x10^{m}"))
-        unit = (unit_code + " " + words).str.strip()
+        words = mult.map(MULT_WORDS).fillna("x10^" + mult.astype("str"))
+        unit = (unit_code + " " + words.where(money, "")).str.strip()
     else:
         numbers = pd.to_numeric(value, errors="coerce")
         scaled = numbers * np.power(10.0, (mult - int(cfg.unit_mult)).to_numpy())
-        value = scaled.map(repr).where(numbers.notna(), value)
+        value = scaled.map(repr).where(numbers.notna() & money, value)
         words = MULT_WORDS.get(int(cfg.unit_mult), f"x10^{cfg.unit_mult}")
-        unit = (unit_code + " " + words).str.strip()
+        unit = (unit_code + " " + words).str.strip().where(money, unit_code)
     out["value"] = value
     out["adjustment"] = text[cfg.adjustment] if cfg.adjustment in dims + attrs else ""
     out["unit"] = unit

@@ -198,7 +198,7 @@ _NO_HEADER = (f"no header row naming economy, item and price_basis and periods i
 
 def _sheet(ws, ws_formulas, where: str, cfg: WideConfig) -> tuple[pd.DataFrame | None, list[Problem]]:
     """One worksheet: its wide table as long raw rows, None without a header (and no problem)."""
-    grid = pd.DataFrame(list(ws.iter_rows(values_only=True)))
+    grid = pd.DataFrame(list(ws.iter_rows(values_only=True)), dtype=object)
     if grid.empty:
         return None, []
     header_at = _header_row(grid, cfg)
@@ -219,7 +219,7 @@ def _sheet(ws, ws_formulas, where: str, cfg: WideConfig) -> tuple[pd.DataFrame |
                                 + (" in the header" if rng.min_row <= top else "") + ": each series needs its own "
                                 "row and each value its own cell; unmerge them"))
     # formulas without a cached value
-    text_f = pd.DataFrame(list(ws_formulas.iter_rows(values_only=True)))
+    text_f = pd.DataFrame(list(ws_formulas.iter_rows(values_only=True)), dtype=object)
     if not text_f.empty:
         is_formula = text_f.map(lambda v: (isinstance(v, str) and v.startswith("=")) or
                                 (v is not None and not isinstance(v, str | int | float | bool)
