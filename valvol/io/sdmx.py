@@ -37,6 +37,8 @@ import re
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
 
 from valvol.errors import Problem, found
 from valvol.io.formats import SdmxConfig
@@ -184,7 +186,9 @@ def sdmx_to_long(df: pd.DataFrame, name: str, cfg: SdmxConfig) -> tuple[pd.DataF
     if cfg.unit_mult == "keep":
         pick = keep & money
         counts = pd.DataFrame({"economy": out["economy"][pick], "mult": mult[pick]}).value_counts()
-        common = counts.reset_index().drop_duplicates("economy").set_index("economy")["mult"]
+        common = (counts.reset_index().sort_values(["economy", "count", "mult"], ascending=[True, False, True],
+                                                   kind="mergesort")
+                  .drop_duplicates("economy").set_index("economy")["mult"])  # the most common, ties: the smallest
         other = (mult != out["economy"].map(common).fillna(mult)).to_numpy() & pick
         report(other, lambda b: ("UNIT_MULT " + mult[b].astype("str") + " where the economy's other series have "
                                  + out["economy"][b].map(common).astype("int64").astype("str")
@@ -195,7 +199,8 @@ def sdmx_to_long(df: pd.DataFrame, name: str, cfg: SdmxConfig) -> tuple[pd.DataF
     else:
         numbers = pd.to_numeric(value, errors="coerce")
         scaled = numbers * np.power(10.0, (mult - int(cfg.unit_mult)).to_numpy())
-        value = scaled.map(repr).where(numbers.notna() & money, value)
+        as_text = pc.cast(pa.array(scaled.to_numpy()), pa.string()).to_numpy(zero_copy_only=False)  # shortest text
+        value = pd.Series(as_text, index=value.index).where(numbers.notna() & money, value)
         words = MULT_WORDS.get(int(cfg.unit_mult), f"x10^{cfg.unit_mult}")
         unit = (unit_code + " " + words).str.strip().where(money, unit_code)
     out["value"] = value

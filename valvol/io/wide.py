@@ -117,9 +117,11 @@ def wide_to_long(df: pd.DataFrame, name: str, cfg: WideConfig,
     keyed = filled[:, key_idx].all(axis=1)
     note = (filled.sum(axis=1) == 1) & ~keyed
     if note.any():
-        log.warning("%s: %d note row(s) skipped (rows %s)", clip(name, 200), int(note.sum()),
+        log.info("%s: %d note row(s) skipped (rows %s)", clip(name, 200), int(note.sum()),
                     ", ".join(str(r) for r in rows[note][:5]) + (", ..." if note.sum() > 5 else ""))
     broken = ~keyed & ~note & filled.any(axis=1)
+    if broken.sum() > 50:
+        problems.append(Problem(file=name, reason=f"and {int(broken.sum()) - 50} more rows with an empty key cell"))
     for i in np.flatnonzero(broken)[:50]:
         j = next(k for k in key_idx if not filled[i, k])
         row = int(rows[i])
@@ -149,6 +151,8 @@ def wide_to_long(df: pd.DataFrame, name: str, cfg: WideConfig,
         problems.append(Problem(file=name, row=row, economy=out.at[k, "economy"], item=out.at[k, "item"],
                                 price_basis=out.at[k, "price_basis"], period=out.at[k, "period"],
                                 reason=f"{cell(col, row)}: value is not a number (found {found(out.at[k, 'value'])})"))
+    if bad.sum() > 200:
+        problems.append(Problem(file=name, reason=f"and {int(bad.sum()) - 200} more cells that are not numbers"))
     return out[~bad].reset_index(drop=True), problems
 
 
