@@ -9,6 +9,7 @@ and ``valvol rebuild`` exit with code 2, and the earlier outputs stay byte-ident
 from __future__ import annotations
 
 import io
+from datetime import datetime
 
 import pytest
 from openpyxl import Workbook
@@ -130,6 +131,9 @@ CASES: dict[str, Case] = {
     "xlsx_error_value": Case(
         {"a.xlsx": workbook([XL_HEAD, ["XQ", "P6", "current", 1, 2, "#DIV/0!", 4]])},
         ("a.xlsx[Quarterly]:2 XQ/P6/current/2020-Q3: cell F2: value is not a number (found '#DIV/0!')",)),
+    "xlsx_date_as_period": Case(
+        {"a.xlsx": workbook([XL_HEAD[:6] + [datetime(2020, 12, 31)], ["XQ", "P6", "current", 1, 2, 3, 4]])},
+        ("a.xlsx[Quarterly]:1: cell G1: a date ('2020-12-31 00:00:00') as a period",)),
     "xlsx_no_wide_sheet": Case(
         {"a.xlsx": workbook([["economy", "period", "value"], ["XQ", "2020", 1]])},
         ("a.xlsx: no sheet with a wide header (Quarterly)",)),

@@ -29,7 +29,7 @@ Example::
 from __future__ import annotations
 
 import re
-from dataclasses import dataclass, field, fields
+from dataclasses import dataclass, fields
 from typing import Any
 
 from valvol.errors import ConfigError
@@ -193,10 +193,3 @@ def wide_config(raw: Any, source: str = "") -> WideConfig:
         values["columns"] = tuple(cols.items())
     return WideConfig(**values)
 
-
-@dataclass(frozen=True)
-class Formats:
-    """The two sections together, as the readers take them."""
-
-    sdmx: SdmxConfig = field(default_factory=SdmxConfig)
-    wide: WideConfig = field(default_factory=WideConfig)

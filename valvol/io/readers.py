@@ -252,7 +252,7 @@ def read_file(path: Path, name: str, carry_columns: Iterable[str] = (), *, sdmx:
         return None, [Problem(file=name, reason=f"cannot be read: {exc.strerror or exc}")]
     if df is None:
         return None, problems
-    sheets = df.pop("source_file") if "source_file" in df.columns else None  # rows of workbook sheets
+    sheets = df.pop("source_file") if path.suffix.lower() == ".xlsx" else None  # rows of workbook sheets
     columns = [str(c).strip().lower() for c in df.columns]
     df.columns = columns
     header = columns[1:]  # after source_row
