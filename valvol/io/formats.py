@@ -11,7 +11,7 @@ Example::
     [sdmx]
     economy = "REF_AREA"                      # dimension giving the economy code
     item = ["STO", "REF_SECTOR"]              # dimensions joined by "_" into the item code
-    totals = ["S1", "_Z", "_T", "_X", "N"]    # codes of "total" or "not applicable": no suffix
+    totals = ["S1", "_Z", "_T", "_X", "N", "N11G"]  # codes of "total" or "not applicable": no suffix
     implied = ["COUNTERPART_AREA", "COUNTERPART_SECTOR", "ACCOUNTING_ENTRY"]
     unit_mult = "keep"                        # or a power of ten the values are scaled to, e.g. 6
 
