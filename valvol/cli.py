@@ -1,4 +1,4 @@
-"""Command line: ``valvol rebuild | check | vintages | prune | revisions | reconcile | serve``.
+"""Command line: ``valvol rebuild | check | vintages | prune | revisions | reconcile | serve | export``.
 
 Thin by design: parse options, call the flow or a package function, map errors to exit
 codes (0 done, 2 invalid input or config, 3 output folder busy, 1 anything else). Bad
@@ -76,6 +76,12 @@ def _parser() -> argparse.ArgumentParser:
     when.add_argument("--cron", help="cron expression, e.g. '0 6 * * *'")
     when.add_argument("--interval", type=float, metavar="SECONDS")
     s.add_argument("--name", default="scheduled-rebuild", help="deployment name")
+    ex = sub.add_parser("export", help="write tables of a vintage in an exchange format (SDMX-CSV)")
+    ex.add_argument("out", type=Path, help="output root of rebuilds")
+    ex.add_argument("--format", dest="fmt", choices=["sdmx-csv"], default="sdmx-csv")
+    ex.add_argument("--vintage", help="vintage name, prefix or label (default: latest)")
+    ex.add_argument("--table", action="append", metavar="T", help="a table to write (repeatable; default: all)")
+    ex.add_argument("--to", type=Path, required=True, metavar="DIR", help="folder for <table>.csv files")
     return p
 
 
@@ -220,8 +226,16 @@ def _serve(args: argparse.Namespace) -> int:
     return 0
 
 
+def _export(args: argparse.Namespace) -> int:
+    from valvol.io.sdmx_export import export_vintage
+
+    written = export_vintage(args.out, args.to, vintage=args.vintage, tables=args.table, fmt=args.fmt)
+    print(f"wrote {len(written)} table(s) as {args.fmt} to {args.to}: {', '.join(p.name for p in written)}")
+    return 0
+
+
 COMMANDS = {"rebuild": _rebuild, "check": _check, "vintages": _vintages, "prune": _prune,
-            "revisions": _revisions, "reconcile": _reconcile, "serve": _serve}
+            "revisions": _revisions, "reconcile": _reconcile, "serve": _serve, "export": _export}
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -44,6 +44,8 @@ from typing import Any
 
 from valvol.errors import ConfigError
 from valvol.hierarchy import DEFAULT_AGGREGATES, ITEM_CODE, Hierarchy
+from valvol.io.formats import SdmxConfig, WideConfig, sdmx_config, wide_config
+from valvol.io.formats import section_dict as format_section_dict
 from valvol.io.text import NotUTF8, decode_utf8
 
 CONFIG_FILE = "valvol.toml"
@@ -146,6 +148,9 @@ class Config:
     reconcile: ReconcileConfig = field(default_factory=ReconcileConfig)
     price_indexes: tuple[str, ...] = ("CPI",)
     carry_columns: tuple[str, ...] = ()
+    #: exchange formats read besides the long form (valvol.io.formats)
+    sdmx: SdmxConfig = field(default_factory=SdmxConfig)
+    wide: WideConfig = field(default_factory=WideConfig)
     source: str = ""
 
     def as_dict(self) -> dict[str, Any]:
@@ -166,6 +171,8 @@ class Config:
             "price_gaps": _section_dict(self.price_gaps),
             "benchmark": _section_dict(self.benchmark),
             "reconcile": _section_dict(self.reconcile),
+            "sdmx": format_section_dict(self.sdmx),
+            "wide": format_section_dict(self.wide),
             "source": self.source,
         }
 
@@ -179,7 +186,7 @@ _SECTIONS = {
     "reconcile": ReconcileConfig,
 }
 _TOP_KEYS = {"reference_year", "levels_at_annual_rate", "aggregates", "sign_changing", "price_indexes",
-             "carry_columns", *_SECTIONS}
+             "carry_columns", "sdmx", "wide", *_SECTIONS}
 
 
 def _section_dict(obj: object) -> dict[str, Any]:
@@ -243,6 +250,8 @@ def config_from_mapping(raw: dict[str, Any], *, source: str = "") -> Config:
         hierarchy=hierarchy,
         price_indexes=tuple(indexes),
         carry_columns=carry,
+        sdmx=sdmx_config(raw.get("sdmx", {}), source),
+        wide=wide_config(raw.get("wide", {}), source),
         source=source,
         **sections,
     )

@@ -22,7 +22,7 @@ from valvol.errors import ConfigError, found
 from valvol.io.publish import sha256_file
 from valvol.io.readers import account_files
 
-_PACKAGES = ("pandas", "numpy", "pyarrow", "duckdb", "pandera", "prefect", "scipy")
+_PACKAGES = ("pandas", "numpy", "pyarrow", "duckdb", "pandera", "prefect", "scipy", "openpyxl")
 
 
 def input_files(accounts_dir: Path, config: Config | None = None) -> list[dict[str, str]]:

@@ -154,7 +154,8 @@ def load(run: Run) -> None:
     from valvol.io.readers import read_accounts
     from valvol.validate import parse_rows
 
-    raw, problems = read_accounts(run.accounts_dir, run.config.carry_columns)
+    raw, problems = read_accounts(run.accounts_dir, run.config.carry_columns, sdmx=run.config.sdmx,
+                                  wide=run.config.wide)
     rows = parse_rows(raw)
     workfiles.write_frame(run.work / ROWS_FILE, rows)
     (run.work / READ_PROBLEMS_FILE).write_text(json.dumps([p.as_dict() for p in problems]))

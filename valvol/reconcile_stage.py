@@ -282,7 +282,7 @@ def _benchmark_file(accounts_dir: Path, config: Config) -> pd.DataFrame | None:
     if path.parent.resolve() == Path(accounts_dir).resolve():
         raise ConfigError(f"{key}: file {name} must sit in a sub-folder: every file of the accounts folder "
                           "is read as accounts", file=config.source)
-    raw, problems = read_file(path, name, config.carry_columns)
+    raw, problems = read_file(path, name, config.carry_columns, sdmx=config.sdmx, wide=config.wide)
     if raw is None:
         raise InputError(problems)
     rows = parse_rows(raw)

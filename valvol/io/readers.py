@@ -6,6 +6,12 @@ relative to the folder) and ``source_row`` (the line number in a CSV file,
 header = line 1; the 1-based row number in a parquet file). Adding a format is
 adding a function to `READERS`.
 
+Besides the long form, a file may hold the same accounts in an exchange layout, recognised
+from its header and turned into long rows before anything else: SDMX-CSV (`valvol.io.sdmx`:
+a ``DATAFLOW`` or ``STRUCTURE``/``STRUCTURE_ID`` column first) and wide tables, one row per
+series and one column per period (`valvol.io.wide`; also every sheet of an ``.xlsx``
+workbook, named ``book.xlsx[Sheet]`` in problems, with its rows as sheet rows).
+
 Agencies ship extra columns (an observation status ``obs_status``, a confidentiality
 flag ``conf_status``, ...). Those declared in ``carry_columns`` of ``valvol.toml`` are
 kept as text, after the raw columns (empty in a file that lacks them); any other
@@ -31,6 +37,7 @@ import pandas as pd
 import pyarrow.parquet as pq
 
 from valvol.errors import Problem, clip, found
+from valvol.io.formats import SdmxConfig, WideConfig
 from valvol.io.text import NotUTF8, decode_utf8
 
 REQUIRED = ("economy", "period", "item", "price_basis", "value")
@@ -175,10 +182,46 @@ def _cell(value: object) -> str:
     return str(value)
 
 
+def _read_xlsx(path: Path, name: str, wide: WideConfig | None = None) -> tuple[pd.DataFrame | None, list[Problem]]:
+    """The wide sheets of a workbook, already as long rows (`valvol.io.wide.read_workbook`)."""
+    from valvol.io.wide import read_workbook
+
+    return read_workbook(path, name, wide)
+
+
 READERS: dict[str, Reader] = {
     ".csv": _read_csv,
     ".parquet": _read_parquet,
+    ".xlsx": _read_xlsx,
 }
+
+
+def _exchange_layout(df: pd.DataFrame, name: str, sdmx: SdmxConfig,
+                     wide: WideConfig) -> tuple[pd.DataFrame | None, list[Problem]]:
+    """A frame in SDMX-CSV or wide layout as long rows; any other frame as it is."""
+    from valvol.io import sdmx as sdmx_io
+    from valvol.io import wide as wide_io
+
+    header = [str(c) for c in df.columns[1:]]
+    if sdmx_io.sdmx_version(header):
+        return sdmx_io.sdmx_to_long(df, name, sdmx)
+    if wide_io.is_wide(header, wide):
+        return wide_io.wide_to_long(df, name, wide)
+    return df, []
+
+
+def _layout_hint(header: list[str]) -> str:
+    """Why a header may lack the long form's columns: an exchange layout not recognised."""
+    from valvol.io import sdmx as sdmx_io
+    from valvol.io.wide import KEYS, PERIOD_HEADER
+
+    if hint := sdmx_io.looks_like_sdmx(header):
+        return hint
+    if any(PERIOD_HEADER.match(h.strip()) for h in header):
+        lacking = [k for k in KEYS if k not in header]
+        return (f"; periods as columns: a wide table also needs the column(s) {', '.join(lacking)} (or declare its "
+                "names in [wide.columns] of valvol.toml)") if lacking else ""
+    return ""
 
 
 def account_files(accounts_dir: Path) -> list[Path]:
@@ -186,21 +229,30 @@ def account_files(accounts_dir: Path) -> list[Path]:
     return sorted(p for p in accounts_dir.iterdir() if p.is_file() and p.suffix.lower() in READERS)
 
 
-def read_file(path: Path, name: str,
-              carry_columns: Iterable[str] = ()) -> tuple[pd.DataFrame | None, list[Problem]]:
+def read_file(path: Path, name: str, carry_columns: Iterable[str] = (), *, sdmx: SdmxConfig | None = None,
+              wide: WideConfig | None = None) -> tuple[pd.DataFrame | None, list[Problem]]:
     """One accounts-format file as a raw frame (`RAW_COLUMNS` plus the carried columns, text but
     ``source_row``), or None when it cannot be used, and the problems met.
 
     ``name`` is how problems name the file (its path relative to the accounts folder). Columns
-    neither read nor carried are dropped with a warning.
+    neither read nor carried are dropped with a warning. ``sdmx`` and ``wide`` (``[sdmx]``,
+    ``[wide]`` of the configuration) say how exchange layouts map.
     """
     carry = tuple(carry_columns)
+    sdmx, wide = sdmx or SdmxConfig(), wide or WideConfig()
     try:
-        df, problems = READERS[path.suffix.lower()](path, name)
+        if path.suffix.lower() == ".xlsx":
+            df, problems = _read_xlsx(path, name, wide)
+        else:
+            df, problems = READERS[path.suffix.lower()](path, name)
+            if df is not None:
+                df, more = _exchange_layout(df, name, sdmx, wide)
+                problems += more
     except OSError as exc:
         return None, [Problem(file=name, reason=f"cannot be read: {exc.strerror or exc}")]
     if df is None:
         return None, problems
+    sheets = df.pop("source_file") if path.suffix.lower() == ".xlsx" else None  # rows of workbook sheets
     columns = [str(c).strip().lower() for c in df.columns]
     df.columns = columns
     header = columns[1:]  # after source_row
@@ -212,7 +264,7 @@ def read_file(path: Path, name: str,
         return None, [*problems, Problem(file=name, row=row, reason=f"column(s) {', '.join(clip(c) for c in repeated)} "
                                          "appear more than once in the header")]
     if missing:
-        hint = ""
+        hint = _layout_hint(header)
         if len(header) == 1 and (sep := next((s for s in ";\t|" if s in header[0]), None)):
             hint = f"; the columns seem separated by {sep!r}: valvol reads comma-separated files"
         return None, [*problems, Problem(file=name, row=row, reason=f"missing column(s) {', '.join(missing)}{hint}")]
@@ -229,15 +281,16 @@ def read_file(path: Path, name: str,
             df[col] = ""
     for col in used:
         df[col] = df[col].astype("str").str.strip()
-    df.insert(0, "source_file", name)
+    df.insert(0, "source_file", name if sheets is None else sheets.loc[df.index].to_numpy())
     return df[[*RAW_COLUMNS, *carry]], problems
 
 
-def read_accounts(accounts_dir: str | Path,
-                  carry_columns: Iterable[str] = ()) -> tuple[pd.DataFrame, list[Problem]]:
+def read_accounts(accounts_dir: str | Path, carry_columns: Iterable[str] = (), *, sdmx: SdmxConfig | None = None,
+                  wide: WideConfig | None = None) -> tuple[pd.DataFrame, list[Problem]]:
     """Read every data file of ``accounts_dir`` into one raw frame.
 
-    ``carry_columns``: extra columns kept as text (``carry_columns`` of the configuration).
+    ``carry_columns``: extra columns kept as text (``carry_columns`` of the configuration);
+    ``sdmx``, ``wide``: how SDMX-CSV and wide files map (``[sdmx]``, ``[wide]``).
 
     Returns the frame (columns `RAW_COLUMNS` plus the carried columns, all text but
     ``source_row``) and the problems met while reading (unreadable file, bad header or line,
@@ -250,10 +303,11 @@ def read_accounts(accounts_dir: str | Path,
         return _empty(carry), [Problem(file=str(folder), reason="accounts folder does not exist")]
     files = account_files(folder)
     if not files:
-        return _empty(carry), [Problem(file=str(folder), reason="no .csv or .parquet file in the accounts folder")]
+        return _empty(carry), [Problem(file=str(folder), reason="no .csv or .parquet file (nor .xlsx workbook) in "
+                                       "the accounts folder")]
     frames = []
     for path in files:
-        df, found_here = read_file(path, path.name, carry)
+        df, found_here = read_file(path, path.name, carry, sdmx=sdmx, wide=wide)
         problems += found_here
         if df is not None:
             frames.append(df)
