@@ -200,7 +200,11 @@ def _run_flow(accounts: Path, out: Path, dask: str | None, options: dict):
 def _check(args: argparse.Namespace) -> int:
     from valvol import pipeline
 
-    with tempfile.TemporaryDirectory(prefix="valvol-check-") as work:
+    from valvol import progress
+
+    if not args.quiet and not args.verbose:
+        log.setLevel(logging.WARNING)  # the progress lines tell the stages
+    with tempfile.TemporaryDirectory(prefix="valvol-check-") as work, progress.use(progress.for_console(args.quiet)):
         n = pipeline.check(args.accounts_dir, work)
     print(f"{args.accounts_dir}: {n} rows valid")
     return 0
