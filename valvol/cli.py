@@ -198,9 +198,7 @@ def _run_flow(accounts: Path, out: Path, dask: str | None, options: dict):
 
 
 def _check(args: argparse.Namespace) -> int:
-    from valvol import pipeline
-
-    from valvol import progress
+    from valvol import pipeline, progress
 
     if not args.quiet and not args.verbose:
         log.setLevel(logging.WARNING)  # the progress lines tell the stages
