@@ -330,6 +330,10 @@ def publish(run: Run) -> None:
                                                                                       "charts"]
     links += [REPORT_FILE, WORKBOOK_FILE]
     target = pub.publish(run.work, run.out_dir, manifest["vintage"], [n for n in links if (run.work / n).exists()])
+    for name in (REPORT_FILE, WORKBOOK_FILE):  # a review file the new vintage lacks: no link left dangling
+        link = run.out_dir / name
+        if link.is_symlink() and not link.exists():
+            link.unlink()
     log.info("publish: vintage %s in %s", target.name, run.out_dir)
 
 

@@ -107,3 +107,9 @@ def test_workbook_command(demo_out, tmp_path, capsys):
     wb = openpyxl.load_workbook(target)
     assert "revisions" not in wb.sheetnames  # the first vintage has no revisions table
     assert main(["-q", "workbook", str(demo_out), "--to", str(tmp_path / "x.csv")]) == 1
+
+
+def test_the_workbook_link_follows_the_latest_vintage(demo_out, demo_dir):
+    assert (demo_out / "workbook.xlsx").is_file()
+    pipeline.rebuild(demo_dir, demo_out, force=True, charts=False, report=False)  # no workbook this time
+    assert not (demo_out / "workbook.xlsx").is_symlink()
