@@ -106,8 +106,8 @@ def _positive_int(text: str) -> int:
 
 
 def _setup_logging(quiet: bool, verbose: bool = False) -> None:
-    """Warnings always; the stages' detailed lines (INFO) with ``-v`` or outside ``rebuild``,
-    whose stages report through the progress lines (`valvol.progress`) instead."""
+    """Warnings always; the stages' detailed lines (INFO) with ``-v``, and for commands other than
+    ``rebuild`` and ``check``, whose stages report through the progress lines (`valvol.progress`)."""
     handler = logging.StreamHandler(sys.stderr)
     handler.setFormatter(logging.Formatter("valvol: %(message)s"))
     log.handlers[:] = [handler]
@@ -175,7 +175,10 @@ def _run_flow(accounts: Path, out: Path, dask: str | None, options: dict):
     check_output_folder(accounts, out)  # a misplaced output folder, a bad config or label, or a busy
     config = load_config(accounts)  # output folder stops before Prefect starts
     pipeline.rebuild_options(options["label"], options["charts"], options["chart_economies"])
-    log.info("starting the Prefect flow valvol-rebuild (its first stage may take a few seconds to begin)")
+    from valvol import progress
+
+    if progress.active() is not None:  # Prefect takes a few seconds before the first stage reports
+        print("valvol: starting the Prefect flow valvol-rebuild", file=sys.stderr, flush=True)
     with output_lock(out):
         pass
     prefect_env.configure()
