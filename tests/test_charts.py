@@ -5,8 +5,8 @@ from __future__ import annotations
 import json
 import logging
 
-import pandas as pd
 import pytest
+from support import demo_panel
 
 from valvol import pipeline
 from valvol.charts import draw_charts
@@ -18,14 +18,7 @@ CODES = ("XQ", "XR", "XS")
 
 @pytest.fixture(scope="module")
 def panel(tmp_path_factory, demo_dir):
-    """The demo economy under three codes, scaled differently (an invented panel)."""
-    folder = tmp_path_factory.mktemp("panel") / "accounts"
-    folder.mkdir()
-    base = pd.read_csv(demo_dir / "accounts.csv")
-    frames = [base.assign(economy=code, value=(base["value"] * (1 + 0.5 * i)).round(1)) for i, code in enumerate(CODES)]
-    pd.concat(frames).to_csv(folder / "panel.csv", index=False)
-    (folder / "valvol.toml").write_bytes((demo_dir / "valvol.toml").read_bytes())
-    return folder
+    return demo_panel(tmp_path_factory.mktemp("panel") / "accounts", demo_dir, CODES)
 
 
 @pytest.fixture(scope="module")

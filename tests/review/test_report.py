@@ -9,6 +9,7 @@ from pathlib import Path
 
 import pandas as pd
 import pytest
+from support import demo_panel
 
 from valvol import pipeline
 from valvol.cli import main
@@ -69,6 +70,17 @@ def test_demo_report_renders_the_release(browser, demo_out, tmp_path_factory):
         assert box["width"] > 500 and box["height"] > 200
     assert seen == {"errors": [], "requests": []}
     assert (shots / "demo_report.png").stat().st_size > 50_000
+
+
+def test_panel_report_has_a_row_per_economy_and_the_overview(browser, demo_dir, tmp_path):
+    out = tmp_path / "out"
+    pipeline.rebuild(demo_panel(tmp_path / "accounts", demo_dir), out)
+    page, seen = _open(browser, out / "report.html")
+    assert page.locator("#headline tbody td.code").all_inner_texts() == ["XQ", "XR", "XS"]
+    assert page.locator("#charts > figure svg").count() == 1  # the overview, then one section per economy
+    assert page.locator("#charts details").count() == 3 and page.locator("#charts details[open]").count() == 0
+    assert "in the latest year, by economy (panel_overview)" in page.inner_text("#charts > figure figcaption")
+    assert seen == {"errors": [], "requests": []}
 
 
 def test_hostile_text_is_escaped(browser, tmp_path):

@@ -28,6 +28,7 @@ import math
 from pathlib import Path
 
 import pandas as pd
+from markupsafe import Markup
 
 from valvol.charts import NAMES
 from valvol.errors import ValvolError
@@ -39,6 +40,13 @@ GAP_MEASURES = {
     "gap_gdp_vs_domestic_demand": "GDP vs domestic demand",
     "gap_import_price_part": "import-price part",
     "gap_export_price_part": "export-price part",
+}
+#: Captions of the charts, by the end of their file name.
+CAPTIONS = {
+    "panel_overview": "GDP volume and GDP-deflator growth in the latest year, by economy",
+    "deflator_contributions": "contributions to GDP-deflator growth, on a year earlier",
+    "deflator_gap": "household consumption vs GDP deflator growth, and the gap",
+    "terms_of_trade": "export and import deflators and the terms of trade",
 }
 #: Rows of warned or failed checks listed (the count by rule covers them all).
 CHECK_ROWS = 200
@@ -148,9 +156,9 @@ def context(tables: dict[str, pd.DataFrame], manifest: dict, charts: list[Path])
     groups: dict[str, list[dict]] = {}
     for path in charts:
         key = "panel" if Path(path).parent.name == "charts" else Path(path).parent.name
-        groups.setdefault(key, []).append({"name": Path(path).stem, "svg": inline_svg(path)})
-    from markupsafe import Markup
-
+        stem = Path(path).stem
+        caption = next((c for end, c in CAPTIONS.items() if stem.endswith(end)), stem)
+        groups.setdefault(key, []).append({"name": stem, "caption": caption, "svg": inline_svg(path)})
     for items in groups.values():
         for c in items:
             c["svg"] = Markup(c["svg"])  # valvol's own charts; everything else stays escaped
