@@ -4,10 +4,11 @@ Sheets:
 
 * ``contents``: the vintage, the caution, one line per sheet (table, economies, rows, a link)
   and the checks that warn or fail, by rule;
-* one sheet per table, in the order of `SHEETS`; a table longer than Excel's sheet
-  (1,048,576 rows, one of them the header) is split over sheets ``<table> 1``, ``<table> 2``,
-  ... cut between economies where one economy fits, and the contents sheet says which
-  economies each holds;
+* one sheet per table, in the order of `SHEETS`, then any other table of the vintage (named
+  by its first 31 characters, Excel's limit); a table longer than Excel's sheet (1,048,576
+  rows, one of them the header) is split over sheets ``<table> 1``, ``<table> 2``, ... cut
+  between economies where one economy fits, and the contents sheet says which economies
+  each holds;
 * ``charts``: the vintage's PNG charts (panel overview first).
 
 Every table sheet has a frozen header row, an autofilter and number formats by measure:
@@ -103,7 +104,7 @@ def plan_sheets(table: str, economy: pd.Series, max_rows: int = EXCEL_ROWS - 1) 
     n = len(economy)
     codes = economy.astype(str).to_numpy()
     if n <= max_rows:
-        return [Part(table, table, 0, n, codes[0] if n else "", codes[-1] if n else "")]
+        return [Part(table, table[:31], 0, n, codes[0] if n else "", codes[-1] if n else "")]
     starts = np.flatnonzero(np.r_[True, codes[1:] != codes[:-1]])  # first row of each economy
     cuts, begin = [0], 0
     while n - begin > max_rows:
@@ -112,7 +113,7 @@ def plan_sheets(table: str, economy: pd.Series, max_rows: int = EXCEL_ROWS - 1) 
         begin = int(fitting[-1]) if len(fitting) else limit
         cuts.append(begin)
     bounds = [*cuts, n]
-    return [Part(table, f"{table} {i + 1}", a, b, codes[a], codes[b - 1])
+    return [Part(table, f"{table[:24]} {i + 1}", a, b, codes[a], codes[b - 1])  # Excel: 31 characters
             for i, (a, b) in enumerate(zip(bounds[:-1], bounds[1:], strict=True))]
 
 
@@ -249,8 +250,10 @@ def _checks_to_review(checks: pd.DataFrame | None) -> pd.DataFrame:
 
 
 def vintage_tables(folder: Path) -> dict[str, pd.DataFrame]:
-    """Every published table of a vintage folder, by name."""
-    return {t: pd.read_parquet(folder / f"{t}.parquet") for t in SHEETS if (folder / f"{t}.parquet").exists()}
+    """Every published table of a vintage folder, by name (those of `SHEETS` first, then any other)."""
+    names = sorted(p.stem for p in Path(folder).glob("*.parquet"))
+    return {t: pd.read_parquet(folder / f"{t}.parquet") for t in [*(t for t in SHEETS if t in names),
+                                                                  *(t for t in names if t not in SHEETS)]}
 
 
 def workbook_of_vintage(folder: Path, path: Path, manifest: dict | None = None) -> Path:
