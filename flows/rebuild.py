@@ -71,6 +71,8 @@ def rebuild_flow(
     chunk_size: int = 0,
     workers: int = 0,
     config: Config | None = None,
+    report: bool = True,
+    workbook: bool = False,
 ):
     """Rebuild every table of ``out_dir`` from the accounts folder; publish atomically.
 
@@ -78,7 +80,7 @@ def rebuild_flow(
     in a scheduled run); ``workers`` sizes the local process pool (1 on a Dask cluster,
     whose workers run the chunks themselves).
     """
-    options = pipeline.rebuild_options(label, charts, chart_economies)
+    options = pipeline.rebuild_options(label, charts, chart_economies, report=report, workbook=workbook)
     with pipeline.session(accounts_dir, out_dir, force=force, options=options, config=config,
                           chunk_size=chunk_size, workers=workers) as s:
         if s.unchanged is not None:

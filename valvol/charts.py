@@ -1,6 +1,6 @@
 """Charts of a vintage, drawn from its published tables (PNG and SVG, matplotlib, no screen).
 
-For each chosen economy:
+For each chosen economy, in ``charts/<economy>/``:
 
 * ``<economy>_deflator_contributions``: contributions of the components of GDP to GDP-deflator
   growth on the same quarter a year earlier, stacked bars (imports negative when import prices
@@ -9,6 +9,13 @@ For each chosen economy:
   earlier (lines) and the gap between them (bars), with the CPI when given;
 * ``<economy>_terms_of_trade``: export and import deflators and the terms of trade
   (100 x export / import deflator).
+
+For a panel (more than one economy), ``charts/panel_overview``: the latest year's GDP volume
+and GDP-deflator growth of every economy, side by side (horizontal bars, one row per economy,
+so it stays readable for hundreds of economies). Per-economy charts are drawn for every
+economy up to `PER_ECONOMY_LIMIT`; beyond it only the overview is drawn and a message says
+which economies were not drawn and how to ask for them (``--charts CODES``). Codes asked for
+that are not in the accounts are an error (the rebuild's check stage refuses them, exit 2).
 """
 
 from __future__ import annotations
@@ -126,23 +133,65 @@ def terms_of_trade_chart(deflators: pd.DataFrame, gaps: pd.DataFrame, economy: s
     return _finish(fig, ax, f"{economy}: terms of trade", "index (reference year = 100)", path)
 
 
-def draw_charts(tables_dir: Path, economies: list[str] | None = None, limit: int = 10) -> list[Path]:
-    """Draw every chart for the chosen economies (default: all, when there are at most ``limit``)."""
+def panel_overview_chart(growth: pd.DataFrame, path: Path) -> list[Path]:
+    """Latest year's GDP volume and GDP-deflator growth (on the year before) of every economy, bars."""
+    g = growth[(growth["item"] == "B1GQ") & (growth["frequency"] == "A") & (growth["horizon"] == "prev_period")
+               & growth["measure"].isin(["volume", "price"])]
+    if g.empty:
+        return []
+    latest = g.sort_values("period").groupby(["economy", "measure"], sort=True).tail(1)
+    wide = latest.pivot_table(index="economy", columns="measure", values="pct", sort=True)
+    years = latest.groupby("economy")["period"].max().reindex(wide.index)
+    wide = wide.reindex(columns=["volume", "price"])
+    n = len(wide)
+    y = np.arange(n)[::-1]
+    fig, ax = plt.subplots(figsize=(10, max(3.0, 1.2 + 0.28 * n)))
+    ax.barh(y + 0.2, wide["volume"].to_numpy(), height=0.38, color=PALETTE[0], label="GDP volume growth")
+    ax.barh(y - 0.2, wide["price"].to_numpy(), height=0.38, color=PALETTE[1], label="GDP deflator growth")
+    same_year = years.nunique() == 1
+    ax.set_yticks(y, [e if same_year else f"{e} ({years[e]})" for e in wide.index], fontsize=8)
+    ax.axvline(0, color="black", linewidth=0.6)
+    ax.set_xlabel("percent, on the year before")
+    title = f"Panel of {n} economies: latest year" + (f" ({years.iloc[0]})" if same_year else "")
+    return _finish(fig, ax, title, "", path)
+
+
+#: Per-economy charts are drawn for every economy of a panel of at most this many economies.
+PER_ECONOMY_LIMIT = 40
+
+
+def draw_charts(tables_dir: Path, economies: list[str] | None = None,
+                limit: int = PER_ECONOMY_LIMIT) -> list[Path]:
+    """Draw the charts of the chosen economies (default: all, when there are at most ``limit``)
+    in ``charts/<economy>/``, and the panel overview when the accounts hold several economies.
+
+    Unknown codes in ``economies`` are skipped here (the rebuild's check stage refuses them).
+    """
     read = {t: pd.read_parquet(tables_dir / f"{t}.parquet")
             for t in ("deflator_contributions", "growth", "price_gaps", "deflators")}
     known = sorted(read["deflators"]["economy"].unique())
     chosen = known if economies is None else [e for e in economies if e in known]
-    for economy in sorted(set(economies or ()) - set(known)):
-        log.warning("--charts: no accounts of economy %s, no chart drawn for it", economy)
     if economies is None and len(known) > limit:
-        return []
+        chosen = []
+        log.warning("charts: %d economies, more than %d: drew the panel overview only (charts/panel_overview.png); "
+                    "no per-economy chart for %s; ask for some with --charts CODES (e.g. --charts %s)",
+                    len(known), limit, _listed(known), ",".join(known[:3]))
     out_dir = tables_dir / "charts"
     out_dir.mkdir(exist_ok=True)
     written: list[Path] = []
+    if len(known) > 1:
+        written += panel_overview_chart(read["growth"], out_dir / "panel_overview")
     for economy in chosen:  # a handful of pictures per economy, not per series
+        folder = out_dir / economy
+        folder.mkdir(exist_ok=True)
         written += deflator_contributions_chart(read["deflator_contributions"], economy,
-                                                out_dir / f"{economy}_deflator_contributions")
-        written += deflator_gap_chart(read["growth"], read["price_gaps"], economy, out_dir / f"{economy}_deflator_gap")
+                                                folder / f"{economy}_deflator_contributions")
+        written += deflator_gap_chart(read["growth"], read["price_gaps"], economy, folder / f"{economy}_deflator_gap")
         written += terms_of_trade_chart(read["deflators"], read["price_gaps"], economy,
-                                        out_dir / f"{economy}_terms_of_trade")
+                                        folder / f"{economy}_terms_of_trade")
     return written
+
+
+def _listed(codes: list[str], shown: int = 8) -> str:
+    head = ", ".join(codes[:shown])
+    return head + (f" and {len(codes) - shown} more" if len(codes) > shown else "")

@@ -1,4 +1,5 @@
-"""Command line: ``valvol rebuild | check | vintages | prune | revisions | reconcile | serve | export``.
+"""Command line: ``valvol rebuild | check | vintages | prune | revisions | reconcile | serve | export | workbook
+| report``.
 
 Thin by design: parse options, call the flow or a package function, map errors to exit
 codes (0 done, 2 invalid input or config, 3 output folder busy, 1 anything else). Bad
@@ -27,6 +28,8 @@ def _parser() -> argparse.ArgumentParser:
     )
     p.add_argument("--version", action="version", version=f"valvol {__version__}")
     p.add_argument("-q", "--quiet", action="store_true", help="print only problems and the result line")
+    p.add_argument("-v", "--verbose", action="store_true",
+                   help="print each stage's detailed log lines as well as its progress line")
     sub = p.add_subparsers(dest="command", required=True)
 
     r = sub.add_parser("rebuild", help="validate the accounts, derive every table and publish a new vintage")
@@ -35,8 +38,11 @@ def _parser() -> argparse.ArgumentParser:
     r.add_argument("--force", action="store_true", help="rebuild even if inputs, code and config are unchanged")
     r.add_argument("--label", help="a label appended to the vintage name (A-Z a-z 0-9 _ . -)")
     r.add_argument("--charts", metavar="CODES", default=None,
-                   help="comma-separated economies to chart (default: all, when there are at most ten)")
+                   help="comma-separated economies to chart (default: all, when there are at most 40; "
+                        "a panel also gets charts/panel_overview); an unknown code is an error")
     r.add_argument("--no-charts", action="store_true", help="draw no charts")
+    r.add_argument("--no-report", action="store_true", help="write no release report (report.html) into the vintage")
+    r.add_argument("--workbook", action="store_true", help="also write the review workbook (workbook.xlsx)")
     r.add_argument("--no-flow", action="store_true",
                    help="run the same stages without Prefect (no orchestration records; faster start)")
     r.add_argument("--dask", nargs="?", const="local", metavar="ADDRESS",
@@ -82,6 +88,17 @@ def _parser() -> argparse.ArgumentParser:
     ex.add_argument("--vintage", help="vintage name, prefix or label (default: latest)")
     ex.add_argument("--table", action="append", metavar="T", help="a table to write (repeatable; default: all)")
     ex.add_argument("--to", type=Path, required=True, metavar="DIR", help="folder for <table>.csv files")
+
+    wb = sub.add_parser("workbook", help="write a vintage's tables, checks and charts as an Excel workbook")
+    wb.add_argument("out", type=Path, help="output root holding the vintages")
+    wb.add_argument("--vintage", help="vintage name, prefix or label (default: latest)")
+    wb.add_argument("--to", type=Path, required=True, metavar="FILE.xlsx")
+
+    rp = sub.add_parser("report", help="write a vintage's release report: one self-contained HTML file")
+    rp.add_argument("out", type=Path, help="output root holding the vintages")
+    rp.add_argument("--vintage", help="vintage name, prefix or label (default: latest)")
+    rp.add_argument("--to", type=Path, metavar="FILE.html",
+                    help="where to write it (default: the report.html the rebuild wrote into the vintage)")
     return p
 
 
@@ -95,11 +112,13 @@ def _positive_int(text: str) -> int:
     return value
 
 
-def _setup_logging(quiet: bool) -> None:
+def _setup_logging(quiet: bool, verbose: bool = False) -> None:
+    """Warnings always; the stages' detailed lines (INFO) with ``-v``, and for commands other than
+    ``rebuild`` and ``check``, whose stages report through the progress lines (`valvol.progress`)."""
     handler = logging.StreamHandler(sys.stderr)
     handler.setFormatter(logging.Formatter("valvol: %(message)s"))
     log.handlers[:] = [handler]
-    log.setLevel(logging.WARNING if quiet else logging.INFO)
+    log.setLevel(logging.DEBUG if verbose and not quiet else logging.WARNING if quiet else logging.INFO)
     log.propagate = False
 
 
@@ -121,23 +140,41 @@ def _rebuild(args: argparse.Namespace) -> int:
     options = {
         "force": args.force, "label": args.label, "charts": not args.no_charts,
         "chart_economies": [e.strip() for e in args.charts.split(",") if e.strip()] if args.charts else None,
-        "chunk_size": args.chunk_size,
+        "chunk_size": args.chunk_size, "report": not args.no_report, "workbook": args.workbook,
     }
-    if args.no_flow:
-        res = pipeline.rebuild(accounts, out, **options)
-    else:
-        res = _run_flow(accounts, out, args.dask, options)
+    from valvol import progress
+
+    if not args.quiet and not args.verbose:
+        log.setLevel(logging.WARNING)  # the progress lines tell the stages
+    with progress.use(progress.for_console(args.quiet)):
+        if args.no_flow:
+            res = pipeline.rebuild(accounts, out, **options)
+        else:
+            res = _run_flow(accounts, out, args.dask, options)
     if res.unchanged:
         print(f"unchanged: inputs, code and config as in vintage {res.vintage}; nothing rebuilt (use --force)")
         return 0
     counts = ", ".join(f"{k} {v}" for k, v in res.row_counts.items())
     print(f"vintage {res.vintage} published in {out} ({counts}); {res.warnings} check warning(s)")
+    print(_flagged_summary(res, out))
     return 0
 
 
-def _run_flow(accounts: Path, out: Path, dask: str | None, options: dict):
-    from rich.console import Console
+def _flagged_summary(res, out: Path) -> str:
+    """Every warned or failed check rule with its count, and where to read them."""
+    lines = []
+    if res.flagged:
+        lines.append("checks to review: " + ", ".join(f"{rule} {n} ({status})" for (status, rule), n in
+                                                     res.flagged.items())
+                     + f"; rows in {out / 'checks.parquet'} (columns rule, status)")
+    else:
+        lines.append("checks: none warns or fails")
+    for name in res.review:
+        lines.append(f"{'release report' if name.endswith('.html') else 'review workbook'}: {out / name}")
+    return "\n".join(lines)
 
+
+def _run_flow(accounts: Path, out: Path, dask: str | None, options: dict):
     from valvol import pipeline, prefect_env
     from valvol.config import load_config
     from valvol.io.publish import check_output_folder, output_lock
@@ -145,6 +182,10 @@ def _run_flow(accounts: Path, out: Path, dask: str | None, options: dict):
     check_output_folder(accounts, out)  # a misplaced output folder, a bad config or label, or a busy
     config = load_config(accounts)  # output folder stops before Prefect starts
     pipeline.rebuild_options(options["label"], options["charts"], options["chart_economies"])
+    from valvol import progress
+
+    if progress.active() is not None:  # Prefect takes a few seconds before the first stage reports
+        print("valvol: starting the Prefect flow valvol-rebuild", file=sys.stderr, flush=True)
     with output_lock(out):
         pass
     prefect_env.configure()
@@ -154,8 +195,7 @@ def _run_flow(accounts: Path, out: Path, dask: str | None, options: dict):
     if dask:
         flow = rebuild_flow.with_options(task_runner=dask_runner(None if dask == "local" else dask))
         options = options | {"workers": 1}  # the cluster's workers run the chunks
-    with Console(stderr=True).status("rebuilding (Prefect flow valvol-rebuild)...", spinner="line"):
-        state = flow(str(accounts), str(out), return_state=True, config=config, **options)
+    state = flow(str(accounts), str(out), return_state=True, config=config, **options)
     if state.is_failed():
         data = state.result(raise_on_failure=False)
         if isinstance(data, list):
@@ -168,9 +208,11 @@ def _run_flow(accounts: Path, out: Path, dask: str | None, options: dict):
 
 
 def _check(args: argparse.Namespace) -> int:
-    from valvol import pipeline
+    from valvol import pipeline, progress
 
-    with tempfile.TemporaryDirectory(prefix="valvol-check-") as work:
+    if not args.quiet and not args.verbose:
+        log.setLevel(logging.WARNING)  # the progress lines tell the stages
+    with tempfile.TemporaryDirectory(prefix="valvol-check-") as work, progress.use(progress.for_console(args.quiet)):
         n = pipeline.check(args.accounts_dir, work)
     print(f"{args.accounts_dir}: {n} rows valid")
     return 0
@@ -234,13 +276,41 @@ def _export(args: argparse.Namespace) -> int:
     return 0
 
 
+def _workbook(args: argparse.Namespace) -> int:
+    from valvol.review.workbook import workbook_of_vintage
+    from valvol.vintages import resolve
+
+    v = resolve(args.out, args.vintage)
+    if args.to.suffix.lower() != ".xlsx":
+        raise ValvolError(f"--to {args.to}: the workbook's file name must end in .xlsx")
+    print(f"review workbook of vintage {v.name}: {workbook_of_vintage(v.path, args.to)}")
+    return 0
+
+
+def _report(args: argparse.Namespace) -> int:
+    from valvol.pipeline import REPORT_FILE
+    from valvol.review.report import report_of_vintage
+    from valvol.vintages import resolve
+
+    v = resolve(args.out, args.vintage)
+    if args.to is None and (v.path / REPORT_FILE).exists():
+        print(f"release report of vintage {v.name}: {v.path / REPORT_FILE}")
+        return 0
+    if args.to is None:  # a vintage built with --no-report: write the report beside its tables
+        raise ValvolError(f"vintage {v.name} has no {REPORT_FILE} (built with --no-report, and vintages are "
+                          "immutable): give --to FILE.html")
+    print(f"release report of vintage {v.name}: {report_of_vintage(v.path, args.to)}")
+    return 0
+
+
 COMMANDS = {"rebuild": _rebuild, "check": _check, "vintages": _vintages, "prune": _prune,
-            "revisions": _revisions, "reconcile": _reconcile, "serve": _serve, "export": _export}
+            "revisions": _revisions, "reconcile": _reconcile, "serve": _serve, "export": _export,
+            "workbook": _workbook, "report": _report}
 
 
 def main(argv: list[str] | None = None) -> int:
     args = _parser().parse_args(argv)
-    _setup_logging(args.quiet)
+    _setup_logging(args.quiet, args.verbose)
     try:
         return COMMANDS[args.command](args)
     except InputError as err:

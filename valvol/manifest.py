@@ -42,7 +42,7 @@ def code_fingerprint() -> str:
     root = resources.files("valvol")
     h = hashlib.sha256(__version__.encode())
     for path in sorted(Path(str(root)).rglob("*")):
-        if path.suffix in (".py", ".sql"):
+        if path.suffix in (".py", ".sql", ".j2"):  # .j2: the report's template
             h.update(path.as_posix().split("/valvol/")[-1].encode())
             h.update(path.read_bytes())
     for sub in ("flows", "schemas", "sql"):  # mapped sub-packages may live elsewhere (editable installs)

@@ -250,6 +250,12 @@ def check(run: Run) -> None:
     from valvol.derive import failed_check_problems
 
     problems = [p for c in chunks(run) for p in failed_check_problems(workfiles.read_table(_chunk_file(run, c, "checks")))]
+    known = sorted(json.loads((run.work / ECONOMIES_FILE).read_text())["rows"])
+    asked = run.options.get("chart_economies") if run.options.get("charts", True) else None
+    unknown = sorted(set(asked or ()) - set(known))
+    if unknown:  # before anything is written: a chart asked for that cannot be drawn
+        problems.append(Problem(file="--charts", reason=f"no accounts of economy {', '.join(unknown)}; economies in "
+                                f"the accounts: {', '.join(known[:50])}" + (" ..." if len(known) > 50 else "")))
     if problems:
         raise InputError(problems)
 
@@ -283,6 +289,7 @@ def write(run: Run) -> None:
                               options=options)
     manifest["charts"] = sorted(str(p.relative_to(work)) for p in drawn)
     manifest["revised_against"] = revised_against
+    manifest["review"] = _review_files(work, manifest, options)
     # last, the work files of earlier stages: a write retried after a failure starts again from them
     shutil.rmtree(work / CHUNKS_DIR, ignore_errors=True)
     for name in work.iterdir():
@@ -292,6 +299,28 @@ def write(run: Run) -> None:
     log.info("write: %s", ", ".join(f"{t} ({n} rows)" for t, n in counts.items()))
     if drawn:
         log.info("write: drew %d chart file(s)", len(drawn))
+    for name in manifest["review"]:
+        log.info("write: %s", name)
+
+
+#: Review outputs a vintage may hold (`valvol.review`): the release report (by default) and the workbook.
+REPORT_FILE = "report.html"
+WORKBOOK_FILE = "workbook.xlsx"
+
+
+def _review_files(work: Path, manifest: dict, options: dict) -> list[str]:
+    """Write the review outputs the rebuild options ask for into the vintage; their names."""
+    from valvol.review.report import report_of_vintage
+    from valvol.review.workbook import workbook_of_vintage
+
+    written = []
+    if options.get("report", True):
+        report_of_vintage(work, work / REPORT_FILE, manifest)
+        written.append(REPORT_FILE)
+    if options.get("workbook", False):
+        workbook_of_vintage(work, work / WORKBOOK_FILE, manifest)
+        written.append(WORKBOOK_FILE)
+    return written
 
 
 @_problems_as_data
@@ -300,7 +329,12 @@ def publish(run: Run) -> None:
     manifest = json.loads((run.work / MANIFEST_FILE).read_text())
     links = [f"{t}.parquet" for t in (*TABLES, "reconciliation", *REVISION_TABLES)] + [MANIFEST_FILE, DB_FILE,
                                                                                       "charts"]
+    links += [REPORT_FILE, WORKBOOK_FILE]
     target = pub.publish(run.work, run.out_dir, manifest["vintage"], [n for n in links if (run.work / n).exists()])
+    for name in (REPORT_FILE, WORKBOOK_FILE):  # a review file the new vintage lacks: no link left dangling
+        link = run.out_dir / name
+        if link.is_symlink() and not link.exists():
+            link.unlink()
     log.info("publish: vintage %s in %s", target.name, run.out_dir)
 
 
@@ -433,18 +467,64 @@ def call_plainly(stage: Stage, run: Run, parts: Sequence[Chunk] | None) -> list[
 
 
 def run_stages(run: Run, stages: Sequence[Stage] = STAGES, call: StageCaller = call_plainly) -> list[Problem]:
-    """Run ``stages`` in order; return the problems of the first stage that finds any (else [])."""
+    """Run ``stages`` in order; return the problems of the first stage that finds any (else []).
+
+    The active progress reporter (`valvol.progress.active`) hears of every stage's start and
+    end, with what it left (`stage_facts`).
+    """
+    from valvol import progress
+
+    reporter = progress.active()
     try:
-        for stage in stages:
+        for i, stage in enumerate(stages, 1):
             started = time.perf_counter()
+            if reporter is not None:
+                reporter.started(stage.name, i, len(stages))
             problems = call(stage, run, chunks(run) if stage.per_chunk else None)
             _timed(run.work, stage.name, started)
+            if reporter is not None:
+                reporter.finished(stage.name, i, len(stages), time.perf_counter() - started,
+                                  stage_facts(run, stage.name) if not problems else "", len(problems))
             if problems:
                 log.info("%s: %d problem(s); stopping", stage.name, len(problems))
                 return problems
         return []
     finally:
         _shutdown_pool()
+
+
+def stage_facts(run: Run, stage: str) -> str:
+    """What a finished stage left, in a few words for the console (read from its work files)."""
+    work = run.work
+    try:
+        if stage == "load":
+            n = workfiles.read_table(work / ROWS_FILE).num_rows
+            return f"{n:,} rows read"
+        if stage == "validate":
+            rows = json.loads((work / ECONOMIES_FILE).read_text())["rows"]
+            return f"{_economies(len(rows))}, {sum(rows.values()):,} rows valid"
+        if stage == "reconcile":
+            n = workfiles.read_table(work / RECONCILIATION_FILE).num_rows
+            return f"{n:,} quarterly values benchmarked or reconciled" if n else "nothing asked"
+        if stage == "derive":
+            parts = chunks(run)
+            return f"{_economies(sum(len(c.economies) for c in parts))} in {len(parts)} chunk(s)"
+        if stage == "check":
+            status = pa.concat_tables([workfiles.read_table(_chunk_file(run, c, "checks")).select(["status"])
+                                       for c in chunks(run)]).column("status").to_pandas().value_counts()
+            return ", ".join(f"{status.get(k, 0):,} {k}" for k in ("pass", "warn", "fail", "info"))
+        manifest_path = work / MANIFEST_FILE if stage == "write" else run.out_dir / pub.LATEST / MANIFEST_FILE
+        m = json.loads(manifest_path.read_text())
+        if stage == "write":
+            return (f"{len(m['row_counts'])} tables, {sum(m['row_counts'].values()):,} rows, "
+                    f"{len(m.get('charts', []))} chart file(s)" + "".join(f", {k}" for k in m.get("review", [])))
+        return f"vintage {m['vintage']}"
+    except (OSError, KeyError, ValueError, TypeError):  # a stage run outside the usual order: no facts
+        return ""
+
+
+def _economies(n: int) -> str:
+    return f"{n:,} econom{'y' if n == 1 else 'ies'}"
 
 
 def _timed(work: Path, stage: str, started: float) -> None:
@@ -471,13 +551,23 @@ class RebuildResult:
     row_counts: dict[str, int]
     warnings: int
     unchanged: bool = False
+    #: Checks that warn or fail, counted by (status, rule) (read from the vintage's checks table).
+    flagged: dict[tuple[str, str], int] = field(default_factory=dict)
+    #: Review outputs written into the vintage (``report.html``, ``workbook.xlsx``).
+    review: tuple[str, ...] = ()
 
 
-def rebuild_options(label: str | None, charts: bool, chart_economies: list[str] | None) -> dict:
-    """The rebuild options that shape a vintage (part of its fingerprint); checks the label."""
+def rebuild_options(label: str | None, charts: bool, chart_economies: list[str] | None, *, report: bool = True,
+                    workbook: bool = False) -> dict:
+    """The rebuild options that shape a vintage (part of its fingerprint); checks the label.
+
+    ``report``: write the release report ``report.html`` into the vintage (default);
+    ``workbook``: also the review workbook ``workbook.xlsx``.
+    """
     from valvol.manifest import check_chart_economies, check_label
 
-    return {"label": check_label(label), "charts": charts, "chart_economies": check_chart_economies(chart_economies)}
+    return {"label": check_label(label), "charts": charts, "chart_economies": check_chart_economies(chart_economies),
+            "report": report, "workbook": workbook}
 
 
 def unchanged_since_latest(accounts_dir: str | Path, out_dir: str | Path, config: Config,
@@ -540,9 +630,11 @@ def rebuild(
     chart_economies: list[str] | None = None,
     chunk_size: int = 0,
     workers: int = 0,
+    report: bool = True,
+    workbook: bool = False,
 ) -> RebuildResult:
     """Run every stage without Prefect and publish atomically (the flow runs the same stages as tasks)."""
-    options = rebuild_options(label, charts, chart_economies)
+    options = rebuild_options(label, charts, chart_economies, report=report, workbook=workbook)
     with session(accounts_dir, out_dir, force=force, options=options, chunk_size=chunk_size,
                  workers=workers) as s:
         if s.unchanged is not None:
@@ -599,7 +691,20 @@ def result_of(target: Path, unchanged: bool = False) -> RebuildResult:
         row_counts=manifest["row_counts"],
         warnings=manifest["checks"].get("warn", 0),
         unchanged=unchanged,
+        flagged=flagged_checks(target),
+        review=tuple(manifest.get("review", ())),
     )
+
+
+def flagged_checks(vintage: Path) -> dict[tuple[str, str], int]:
+    """Checks of a vintage that warn or fail: count by (status, rule), fails first."""
+    path = vintage / "checks.parquet"
+    if not path.exists():
+        return {}
+    t = pq.read_table(path, columns=["rule", "status"]).to_pandas()
+    bad = t[t["status"].isin(["fail", "warn"])]
+    counts = bad.groupby(["status", "rule"], sort=True).size()
+    return {k: int(v) for k, v in sorted(counts.items(), key=lambda kv: (kv[0][0] != "fail", kv[0]))}
 
 
 def _revisions_against_latest(out_dir: Path | None, work: Path) -> tuple[str | None, dict[str, pa.Table]]:

@@ -225,3 +225,13 @@ def valvol_command() -> list[str]:
     """
     script = Path(sys.executable).with_name("valvol")
     return [str(script)] if script.exists() else [sys.executable, "-m", "valvol.cli"]
+
+
+def demo_panel(folder: Path, demo_dir: Path, codes=("XQ", "XR", "XS")) -> Path:
+    """The demo economy under several codes, scaled differently (an invented panel); returns ``folder``."""
+    folder.mkdir(parents=True, exist_ok=True)
+    base = pd.read_csv(demo_dir / "accounts.csv")
+    frames = [base.assign(economy=code, value=(base["value"] * (1 + 0.5 * i)).round(1)) for i, code in enumerate(codes)]
+    pd.concat(frames).to_csv(folder / "panel.csv", index=False)
+    (folder / "valvol.toml").write_bytes((demo_dir / "valvol.toml").read_bytes())
+    return folder
