@@ -84,7 +84,7 @@ def first_year_values(series: pd.DataFrame) -> pd.DataFrame:
     v, v_y, c_y = s["v"].to_numpy(), year_values["v_y"].to_numpy(), year_values["c_y"].to_numpy()
     with np.errstate(invalid="ignore"):
         priced = (v > 0) & (v_y > 0)
-    at_own = np.where(quarterly & priced, v * c_y / np.where(priced, v_y, 1.0), s["c"].to_numpy())
+    at_own = np.where(quarterly & priced, v * (c_y / np.where(priced, v_y, 1.0)), s["c"].to_numpy())  # no overflow
     fill = first.to_numpy()
     s["k"] = np.where(fill, at_own, s["k"].to_numpy())
     s["unpriced"] = fill & quarterly & ~priced
