@@ -8,8 +8,8 @@ of quarters and years at current and previous-year prices), measured in one run 
 processes, each timed from outside (wall clock and the process's peak resident memory, from
 the operating system's accounting of the finished child):
 
-* ``plain``: ``valvol rebuild DIR --out OUT --no-flow --no-charts --force`` (a fresh output
-  folder, so no revisions);
+* ``plain``: ``valvol rebuild DIR --out OUT --no-flow --no-charts --no-report --force`` (a
+  fresh output folder, so no revisions; no review outputs);
 * ``flow``: the same through the Prefect flow (its embedded server started by the run);
 * ``floor``: DuckDB alone reads the same CSV and writes as many parquet rows as the rebuild
   published (in columns of the same kinds);
@@ -119,13 +119,13 @@ def main() -> None:
         out = work / f"out_{n}"
         shutil.rmtree(out, ignore_errors=True)
         plain = measure([*VALVOL, "-q", "rebuild", str(accounts), "--out", str(out), "--no-flow", "--no-charts",
-                         "--force"], work, env)
+                         "--no-report", "--force"], work, env)
         published = published_rows(out)
         flow = (None, None)
         if not args.no_flow_runs:
             shutil.rmtree(work / f"flow_{n}", ignore_errors=True)
             flow = measure([*VALVOL, "-q", "rebuild", str(accounts), "--out", str(work / f"flow_{n}"),
-                            "--no-charts", "--force"], work, env)
+                            "--no-charts", "--no-report", "--force"], work, env)
         floor = measure([sys.executable, "-c", FLOOR, str(accounts), str(work / "floor.parquet"), str(published)],
                         work, env)
         scale, base_accounts = 1.0, accounts
