@@ -45,7 +45,7 @@ def _inputs(index=INDEX, weights=WEIGHTS, accounts=ACCOUNTS):
 
 def _effects(bridge, order="formula_on_common", year=2021):
     b = bridge[(bridge["order"] == order) & (bridge["year"] == year) & (bridge["horizon"] == "prev_year")]
-    return dict(zip(b["effect"], b["value_pp"]))
+    return dict(zip(b["effect"], b["value_pp"], strict=True))
 
 
 def test_hand_example():
