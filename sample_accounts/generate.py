@@ -1157,10 +1157,11 @@ def build_coicop(accounts: pd.DataFrame, cpi: pd.DataFrame) -> tuple[pd.DataFram
     prev[q_year == first] = avg.loc[first].to_numpy()  # the first year at its own average prices
     k = c * prev / qb
     cols = [f"P31_S14_{code}" for code in p["code"]]
+    c, k = np.round(c, 1), np.round(k, 1)  # as published: the balance takes the rounding, so the sums are exact
     household = pd.DataFrame(c, index=hh.index, columns=cols).assign(
-        **{f"P31_S14_{COICOP_BALANCE}": c_tot - c.sum(axis=1)})
+        **{f"P31_S14_{COICOP_BALANCE}": np.round(c_tot - c.sum(axis=1), 1)})
     household_k = pd.DataFrame(k, index=hh.index, columns=cols).assign(
-        **{f"P31_S14_{COICOP_BALANCE}": k_tot - k.sum(axis=1)})
+        **{f"P31_S14_{COICOP_BALANCE}": np.round(k_tot - k.sum(axis=1), 1)})
     periods = head["period"].to_numpy()
     rows = [(ECONOMY, periods[m], item, "index", idx[m, j], CPI_ADJUSTMENT, CPI_UNIT)
             for j, item in enumerate(index_items) for m in range(len(periods))]

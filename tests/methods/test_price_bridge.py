@@ -103,3 +103,47 @@ def test_fixed_basket_gives_zero_formula():
                 "P31_S14_CP045": ((100.0, 100.0), (100.0, 100.0), (92.7, 90.0))}
     e = _effects(price_bridge(*_inputs(index, {"CPI_CP01": 0.5, "CPI_CP045": 0.5}, accounts))[0])
     assert abs(e["formula"]) < 1e-12 and abs(e["gap"]) < 1e-12
+
+
+def test_demo_sub_indexes_give_the_headline(demo_dir):
+    """Quillon: the weighted sub-indexes reproduce the published CPI within its rounding of 0.1
+    (half a unit: 0.05), every month from the second year on (derived from the annually chained
+    fixed-basket form, IMF Consumer Price Index Manual 2020, ch. 9)."""
+    head = pd.read_csv(demo_dir / "cpi.csv")
+    sub = pd.read_csv(demo_dir / "cpi_coicop.csv")
+    ix = sub[sub["price_basis"] == "index"].pivot(index="period", columns="item", values="value")
+    w = sub[sub["price_basis"] == "weight"].pivot(index="period", columns="item", values="value")
+    h = head.set_index("period")["value"].reindex(ix.index)
+    year = ix.index.str.slice(0, 4).astype(int)
+    mean = ix.groupby(year).mean()
+    hmean = h.groupby(year).mean()
+    for y in sorted(set(year))[1:]:  # a check over the demo's years
+        cur = year == y
+        wy = w.loc[str(y), ix.columns] / w.loc[str(y), ix.columns].sum()
+        agg = hmean[y - 1] * (ix[cur] / mean.loc[y - 1]).mul(wy, axis=1).sum(axis=1)
+        assert (agg - h[cur]).abs().max() <= 0.05
+
+
+def test_demo_bridge_adds_up_to_the_published_gap(demo_dir, tmp_path):
+    """Quillon: the bridge's gap is price_gaps' gap_cpi_vs_household; effects add to it and item
+    contributions to the effects (derived); in 2022 energy drives the weight effect."""
+    from valvol import pipeline
+
+    out = tmp_path / "out"
+    pipeline.rebuild(demo_dir, out, charts=False)
+    bridge = pd.read_parquet(out / "price_bridge.parquet")
+    items = pd.read_parquet(out / "price_bridge_items.parquet")
+    gaps = pd.read_parquet(out / "price_gaps.parquet")
+    key = ["economy", "period", "horizon"]
+    gap = bridge[bridge["effect"] == "gap"].merge(gaps[gaps["measure"] == "gap_cpi_vs_household"], on=key)
+    assert len(gap) == len(bridge[bridge["effect"] == "gap"]) > 0
+    assert np.allclose(gap["value_pp"], gap["value"], atol=1e-9, rtol=0)
+    k = [*key, "order"]
+    e = bridge.pivot_table(index=k, columns="effect", values="value_pp")
+    assert (e.drop(columns="gap").sum(axis=1) - e["gap"]).abs().max() < 1e-12
+    s = items.groupby([*k, "effect"])["value_pp"].sum()
+    b = bridge[bridge["effect"] != "gap"].set_index([*k, "effect"])["value_pp"]
+    assert (s.reindex(b.index) - b).abs().max() < 1e-12
+    w = items[(items["period"] == "2022") & (items["effect"] == "weight") & (items["horizon"] == "prev_year")
+              & (items["order"] == "formula_on_common")].set_index("item")["value_pp"]
+    assert w.idxmax() == "CPI_CP0451"
