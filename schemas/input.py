@@ -100,8 +100,7 @@ def input_rows(
             ),
             pa.Check(
                 lambda df: is_index(df["item"]) == df["price_basis"].isin([INDEX_BASIS, WEIGHT_BASIS]),
-                error=f"price_basis index is for price indexes ({', '.join(indexes)}) and only for them "
-                      "(and their sub-indexes CODE_SUFFIX, with price_basis weight for basket weights)",
+                error=f"price_basis index is for price indexes ({', '.join(indexes)}) and only for them",
                 name="index_basis",
             ),
             pa.Check(
