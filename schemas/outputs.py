@@ -97,6 +97,7 @@ price_gaps = pa.DataFrameSchema(
     name="price_gaps",
 )
 
+
 def _bridge(name: str, item: bool) -> pa.DataFrameSchema:
     cols = {"economy": pa.Column(str), "period": _PERIOD, "frequency": _FREQ, "horizon": pa.Column(str),
             "order": pa.Column(str, pa.Check.isin(["formula_on_common", "formula_on_accounts"])),

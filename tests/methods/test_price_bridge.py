@@ -108,7 +108,7 @@ def test_fixed_basket_gives_zero_formula():
 def test_demo_sub_indexes_give_the_headline(demo_dir):
     """Quillon: the weighted sub-indexes reproduce the published CPI within its rounding of 0.1
     (half a unit: 0.05), every month from the second year on (derived from the annually chained
-    fixed-basket form, IMF Consumer Price Index Manual 2020, ch. 9)."""
+    fixed-basket form of docs/methods.md section 6.1; derived)."""
     head = pd.read_csv(demo_dir / "cpi.csv")
     sub = pd.read_csv(demo_dir / "cpi_coicop.csv")
     ix = sub[sub["price_basis"] == "index"].pivot(index="period", columns="item", values="value")

@@ -11,7 +11,8 @@ their basket weights (price_basis ``weight``, one annual row per weight-referenc
 household consumption by purpose ``P31_S14_<COICOP>`` at current and previous-year prices.
 A sub-index pairs with the consumption item of the same COICOP code, or as ``pairs`` in
 ``[price_bridge]`` of valvol.toml says where the two classifications differ; items of one
-side only form the scope sets. See docs/methods.md, sections 6.4 and 11.6.
+side only form the scope sets. See docs/methods.md, section 6.1, and the hand example in
+docs/derivations/price_bridge.md.
 """
 
 from __future__ import annotations
@@ -138,10 +139,11 @@ def price_bridge(index_levels: pd.DataFrame, weights: pd.DataFrame, levels: pd.D
 
     References
     ----------
-    McCully, Moyer & Stewart (2007), "Comparing the Consumer Price Index and the Personal
-    Consumption Expenditures Price Index", Survey of Current Business 87(11); IMF,
-    *Consumer Price Index Manual: Concepts and Methods* (2020), ch. 2, 8 and 9; IMF,
-    *Quarterly National Accounts Manual*, 2017 edition, ch. 8; UN, *Classification of
+    McCully, Moyer & Stewart (2007), on the CPI and the PCE price index, Survey of Current
+    Business, November (formula, weight, scope and other effects); IMF and others (2020),
+    *Consumer Price Index Manual: Concepts and Methods* (price-updated baskets, annual
+    chaining; from memory); IMF, *Quarterly National Accounts Manual*, 2017 edition, ch. 8
+    (previous-year prices, annual overlap); United Nations (2018), *Classification of
     Individual Consumption According to Purpose (COICOP) 2018*.
     """
     wide = pivot_bases(levels)
