@@ -17,13 +17,15 @@ import pandera.pandas as pa
 from valvol.schemas.checks import matches
 
 from valvol.frames import INDEX_BASES, INPUT_PRICE_BASES
-from valvol.hierarchy import ITEM_CODE
+from valvol.hierarchy import ITEM_CODE, extended_code
 from valvol.periods import PERIOD_PATTERN
 
 ECONOMY_PATTERN = r"^[A-Z0-9_]{2,16}$"
 
 
 INDEX_BASIS = "index"
+#: Basket weight of a price sub-index in a weight-reference year (`valvol.methods.price_bridge`).
+WEIGHT_BASIS = "weight"
 
 
 def _per_code(predicate: Callable[[str], bool]) -> Callable[[pd.Series], pd.Series]:
@@ -48,9 +50,10 @@ def input_rows(
     changes sign does not exist and a chain index of it is meaningless.
     """
     indexes = sorted(price_indexes)
-    allowed = _per_code(lambda code: code in price_indexes or is_allowed(code))
+    is_index = _per_code(lambda code: extended_code(code, price_indexes) is not None)
+    allowed = _per_code(lambda code: extended_code(code, price_indexes) is not None or is_allowed(code))
     changes_sign = _per_code(is_sign_changing)
-    bases = (*INPUT_PRICE_BASES, INDEX_BASIS)
+    bases = (*INPUT_PRICE_BASES, INDEX_BASIS, WEIGHT_BASIS)
     return pa.DataFrameSchema(
         {
             "source_file": pa.Column(str),
@@ -96,9 +99,15 @@ def input_rows(
                 name="non_negative",
             ),
             pa.Check(
-                lambda df: df["item"].isin(indexes) == df["price_basis"].eq(INDEX_BASIS),
+                lambda df: is_index(df["item"]) == df["price_basis"].isin([INDEX_BASIS, WEIGHT_BASIS]),
                 error=f"price_basis index is for price indexes ({', '.join(indexes)}) and only for them",
                 name="index_basis",
+            ),
+            pa.Check(
+                lambda df: ~df["price_basis"].eq(WEIGHT_BASIS) | (df["frequency"].eq("A") & ~(df["value"] < 0)),
+                error="a basket weight (price_basis weight) is annual (period YYYY, the weight-reference year) "
+                      "and not negative",
+                name="weight_annual",
             ),
             pa.Check(
                 lambda df: ~df["frequency"].eq("M") | df["price_basis"].eq(INDEX_BASIS),

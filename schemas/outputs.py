@@ -97,6 +97,22 @@ price_gaps = pa.DataFrameSchema(
     name="price_gaps",
 )
 
+
+def _bridge(name: str, item: bool) -> pa.DataFrameSchema:
+    cols = {"economy": pa.Column(str), "period": _PERIOD, "frequency": _FREQ, "horizon": pa.Column(str),
+            "order": pa.Column(str, pa.Check.isin(["formula_on_common", "formula_on_accounts"])),
+            "effect": pa.Column(str, pa.Check.isin(["gap", "residual", "scope_index_only", "weight", "formula",
+                                                    "scope_accounts_only"]))}
+    if item:
+        cols["item"] = pa.Column(str)
+    cols["value_pp"] = pa.Column(float, _FINITE)
+    key = ["economy", "period", "horizon", "order", "effect", *(["item"] if item else [])]
+    return pa.DataFrameSchema(cols, checks=[unique_key(key)], strict=True, name=name)
+
+
+price_bridge = _bridge("price_bridge", item=False)
+price_bridge_items = _bridge("price_bridge_items", item=True)
+
 identity_residuals = pa.DataFrameSchema(
     {
         "economy": pa.Column(str),
@@ -185,6 +201,8 @@ TABLES = {
     "deflator_contributions": contributions,
     "income_contributions": contributions,
     "price_gaps": price_gaps,
+    "price_bridge": price_bridge,
+    "price_bridge_items": price_bridge_items,
     "reconciliation": reconciliation,
     "revisions": revisions,
     "revision_summary": revision_summary,

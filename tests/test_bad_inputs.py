@@ -101,7 +101,28 @@ CP1252 = (HEADER.replace("value\n", "value,unit\n") + "XQ,2020,P6,current,1,€ 
 AGGREGATE_P3 = '[aggregates]\nP3 = ["P31_S14", "P3_S13"]\n'
 BENCHMARK = '[benchmark]\nitems = ["P31_S14"]\nbenchmarks = "annual/benchmarks.csv"\n'
 
+MONTHS_2020 = "".join(f"XQ,2020-{m:02d},CPI_CP01,index,100\n" for m in range(1, 13))
+
 CASES: dict[str, Case] = {
+    # --- price bridge: sub-indexes, basket weights, purposes (valvol.methods.price_bridge) ---
+    "sub_index_without_weight": Case(
+        {"accounts.csv": GOOD, "cpi.csv": HEADER + MONTHS_2020},
+        ("cpi.csv:2 XQ/CPI_CP01/index/2020-01: sub-index of CPI without a basket weight for weight-reference "
+         "year 2020",)),
+    "quarterly_weight": Case(
+        {"accounts.csv": GOOD, "cpi.csv": HEADER + MONTHS_2020 + "XQ,2020-Q1,CPI_CP01,weight,50\n"},
+        ("cpi.csv:14 XQ/CPI_CP01/weight/2020-Q1: a basket weight (price_basis weight) is annual",)),
+    "weight_of_the_headline": Case(
+        {"accounts.csv": GOOD, "cpi.csv": HEADER + "XQ,2020,CPI,weight,1000\n"},
+        ("cpi.csv:2 XQ/CPI/weight/2020: a basket weight belongs to a sub-index CPI_<COICOP>",)),
+    "purposes_do_not_add_up": Case(
+        {"accounts.csv": GOOD, "coicop.csv": HEADER + quarters("P31_S14_CP01", "current", 50.0)
+         + quarters("P31_S14_CP042", "current", 5.0)},
+        ("accounts.csv:2 XQ/P31_S14/current/2019-Q1: the purposes P31_S14_<COICOP> add up to 55.2, not to the "
+         "P31_S14 given (60.1)",)),
+    "bridge_pair_not_of_the_form": Case(
+        {"accounts.csv": GOOD}, ("[price_bridge] pairs: 'CP0451=P31_S14_CP045' is not CPI_<CODE>=P31_S14_<CODE>",),
+        toml='[price_bridge]\npairs = ["CP0451=P31_S14_CP045"]\n', error=ConfigError),
     # --- columns ---
     "missing_column": Case({"a.csv": "economy,period,item,price_basis\nXQ,2020,P6,current\n"},
                            ("a.csv:1: missing column(s) value",)),

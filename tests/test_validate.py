@@ -52,7 +52,7 @@ def test_every_row_problem_is_reported_with_file_row_series_period(accounts, tmp
         (5, "economy code must be 2-16 characters of A-Z, 0-9, _"),
         (6, "period must be YYYY-Qn, YYYYQn or YYYY"),
         (7, "item is not a known SNA code nor a breakdown of one"),
-        (8, "price_basis must be one of current, previous_year, chain_linked, volume_index, price_index, index"),
+        (8, "price_basis must be one of current, previous_year, chain_linked, volume_index, price_index, index, weight"),
         (9, "duplicate of accounts.csv:2"),
         (11, "value must be a finite number"),
     }

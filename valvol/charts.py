@@ -8,7 +8,9 @@ For each chosen economy, in ``charts/<economy>/``:
 * ``<economy>_deflator_gap``: household consumption deflator and GDP deflator growth on a year
   earlier (lines) and the gap between them (bars), with the CPI when given;
 * ``<economy>_terms_of_trade``: export and import deflators and the terms of trade
-  (100 x export / import deflator).
+  (100 x export / import deflator);
+* ``<economy>_price_bridge`` (with CPI sub-indexes): the effects of the CPI-to-household-deflator
+  bridge on a year earlier, stacked bars, with the gap as a line.
 
 For a panel (more than one economy), ``charts/panel_overview``: the latest year's GDP volume
 and GDP-deflator growth of every economy, side by side (horizontal bars, one row per economy,
@@ -133,6 +135,31 @@ def terms_of_trade_chart(deflators: pd.DataFrame, gaps: pd.DataFrame, economy: s
     return _finish(fig, ax, f"{economy}: terms of trade", "index (reference year = 100)", path)
 
 
+BRIDGE_EFFECTS = {"residual": "residual (headline vs sub-indexes)", "scope_index_only": "scope: index only",
+                  "weight": "weights", "formula": "formula (substitution)", "scope_accounts_only": "scope: accounts only"}
+
+
+def price_bridge_chart(bridge: pd.DataFrame, economy: str, path: Path) -> list[Path]:
+    """Stacked effects of the price bridge (quarters on a year earlier, published order), the gap as a line."""
+    b = bridge[(bridge["economy"] == economy) & (bridge["frequency"] == "Q") & (bridge["horizon"] == "prev_year")
+               & (bridge["order"] == "formula_on_common")]
+    if b.empty:
+        return []
+    w = b.pivot(index="period", columns="effect", values="value_pp").sort_index()
+    x = _quarter_axis(pd.Series(w.index))
+    fig, ax = plt.subplots(figsize=(10, 5))
+    pos, neg = np.zeros(len(w)), np.zeros(len(w))
+    for (effect, label), colour in zip(BRIDGE_EFFECTS.items(), PALETTE, strict=False):
+        v = w[effect].to_numpy() if effect in w else np.zeros(len(w))
+        base = np.where(v >= 0, pos, neg)
+        ax.bar(x, v, width=0.22, bottom=base, color=colour, label=label)
+        pos, neg = pos + np.clip(v, 0, None), neg + np.clip(v, None, 0)
+    ax.plot(x, w["gap"], color="#000000", linewidth=1.8, label="gap: CPI minus household deflator growth")
+    ax.axhline(0, color="#555555", linewidth=0.6)
+    return _finish(fig, ax, f"{economy}: CPI vs household consumption deflator, on a year earlier",
+                   "percentage points", path)
+
+
 def panel_overview_chart(growth: pd.DataFrame, path: Path) -> list[Path]:
     """Latest year's GDP volume and GDP-deflator growth (on the year before) of every economy, bars."""
     g = growth[(growth["item"] == "B1GQ") & (growth["frequency"] == "A") & (growth["horizon"] == "prev_period")
@@ -169,6 +196,8 @@ def draw_charts(tables_dir: Path, economies: list[str] | None = None,
     """
     read = {t: pd.read_parquet(tables_dir / f"{t}.parquet")
             for t in ("deflator_contributions", "growth", "price_gaps", "deflators")}
+    bridge_file = tables_dir / "price_bridge.parquet"
+    bridge = pd.read_parquet(bridge_file) if bridge_file.exists() else None
     known = sorted(read["deflators"]["economy"].unique())
     chosen = known if economies is None else [e for e in economies if e in known]
     if economies is None and len(known) > limit:
@@ -189,6 +218,8 @@ def draw_charts(tables_dir: Path, economies: list[str] | None = None,
         written += deflator_gap_chart(read["growth"], read["price_gaps"], economy, folder / f"{economy}_deflator_gap")
         written += terms_of_trade_chart(read["deflators"], read["price_gaps"], economy,
                                         folder / f"{economy}_terms_of_trade")
+        if bridge is not None:
+            written += price_bridge_chart(bridge, economy, folder / f"{economy}_price_bridge")
     return written
 
 

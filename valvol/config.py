@@ -31,6 +31,11 @@ Example ``valvol.toml``::
 
     [price_gaps]
     numeraire = "trade_average"    # or "import", "export", "domestic_final_demand"
+
+    [price_bridge]                 # CPI sub-indexes CPI_<COICOP> against P31_S14_<COICOP>
+    headline = "CPI"
+    accounts = "P31_S14"
+    pairs = ["CPI_CP0451=P31_S14_CP045"]  # where the two classifications differ
 """
 
 from __future__ import annotations
@@ -121,6 +126,22 @@ class PriceGapsConfig:
     numeraire: str = "trade_average"
 
 
+@dataclass(frozen=True)
+class PriceBridgeConfig:
+    """The CPI-to-household-deflator bridge (`valvol.methods.price_bridge`).
+
+    ``pairs``: ``"INDEX_ITEM=ACCOUNTS_ITEM"`` where the two classifications differ (for
+    example ``"CPI_CP0451=P31_S14_CP045"``); other sub-indexes pair by their COICOP code.
+    """
+
+    headline: str = "CPI"
+    accounts: str = "P31_S14"
+    pairs: tuple[str, ...] = ()
+
+    def pair_tuples(self) -> tuple[tuple[str, str], ...]:
+        return tuple(tuple(p.split("=", 1)) for p in self.pairs)  # type: ignore[misc]
+
+
 _CHOICES: dict[tuple[str, str], tuple[str, ...]] = {
     ("volumes", "method"): ("annual_overlap", "one_quarter_overlap", "over_the_year"),
     ("volumes", "index"): ("laspeyres", "fisher"),
@@ -144,6 +165,7 @@ class Config:
     volumes: VolumesConfig = field(default_factory=VolumesConfig)
     contributions: ContributionsConfig = field(default_factory=ContributionsConfig)
     price_gaps: PriceGapsConfig = field(default_factory=PriceGapsConfig)
+    price_bridge: PriceBridgeConfig = field(default_factory=PriceBridgeConfig)
     benchmark: BenchmarkConfig = field(default_factory=BenchmarkConfig)
     reconcile: ReconcileConfig = field(default_factory=ReconcileConfig)
     price_indexes: tuple[str, ...] = ("CPI",)
@@ -169,6 +191,7 @@ class Config:
             "volumes": _section_dict(self.volumes),
             "contributions": _section_dict(self.contributions),
             "price_gaps": _section_dict(self.price_gaps),
+            "price_bridge": _section_dict(self.price_bridge),
             "benchmark": _section_dict(self.benchmark),
             "reconcile": _section_dict(self.reconcile),
             "sdmx": format_section_dict(self.sdmx),
@@ -182,6 +205,7 @@ _SECTIONS = {
     "volumes": VolumesConfig,
     "contributions": ContributionsConfig,
     "price_gaps": PriceGapsConfig,
+    "price_bridge": PriceBridgeConfig,
     "benchmark": BenchmarkConfig,
     "reconcile": ReconcileConfig,
 }
@@ -243,6 +267,7 @@ def config_from_mapping(raw: dict[str, Any], *, source: str = "") -> Config:
     except ConfigError as exc:
         raise ConfigError(str(exc), file=source) from None
     sections = {name: _section(raw.get(name, {}), cls, name, source) for name, cls in _SECTIONS.items()}
+    _check_bridge(sections["price_bridge"], source)
     _check_adjustments(sections["benchmark"], sections["reconcile"], hierarchy, tuple(indexes), source)
     return Config(
         reference_year=ref,
@@ -255,6 +280,19 @@ def config_from_mapping(raw: dict[str, Any], *, source: str = "") -> Config:
         source=source,
         **sections,
     )
+
+
+def _check_bridge(bridge: PriceBridgeConfig, source: str) -> None:
+    """Codes of ``[price_bridge]``: item codes; each pair an index item and an accounts item of the bridge."""
+    for key in ("headline", "accounts"):
+        if not ITEM_CODE.fullmatch(getattr(bridge, key)):
+            raise ConfigError(f"[price_bridge] {key} must be an item code, got {getattr(bridge, key)!r}", file=source)
+    for p in bridge.pairs:
+        a, _, b = p.partition("=")
+        if not (a.startswith(bridge.headline + "_") and b.startswith(bridge.accounts + "_")
+                and ITEM_CODE.fullmatch(a) and ITEM_CODE.fullmatch(b)):
+            raise ConfigError(f"[price_bridge] pairs: {p!r} is not {bridge.headline}_<CODE>={bridge.accounts}_<CODE>",
+                              file=source)
 
 
 def _carry_columns(value: Any, source: str) -> tuple[str, ...]:

@@ -45,6 +45,8 @@ TABLES = (
     "deflator_contributions",
     "income_contributions",
     "price_gaps",
+    "price_bridge",
+    "price_bridge_items",
 )
 
 
@@ -108,6 +110,7 @@ def derive_chunk(
         panel = panel[~panel["item"].str.endswith("_RESIDUAL")]
         derive_contributions(con, config, panel)
         derive_price_gaps(con, config, panel, indexes)
+        derive_price_bridge(con, config, panel, indexes)
         tables = {name: db.query_arrow(con, f"out_{name}") for name in TABLES}
     finally:
         con.close()
@@ -326,3 +329,29 @@ def derive_price_gaps(con: duckdb.DuckDBPyConnection, config: Config, levels: pd
     db.register(con, "gap_rows", gaps)
     db.run_sql(con, "int_price_gaps")
     con.unregister("gap_rows")
+
+
+def derive_price_bridge(con: duckdb.DuckDBPyConnection, config: Config, levels: pd.DataFrame,
+                        indexes: pd.DataFrame | None = None) -> None:
+    """The CPI-to-household-deflator bridge and its item contributions (`valvol.methods.price_bridge`)."""
+    from valvol.methods import price_bridge
+    from valvol.methods.price_gaps import index_levels
+
+    b = config.price_bridge
+    bridge, items = price_bridge._empty(price_bridge.BRIDGE_COLUMNS), price_bridge._empty(price_bridge.ITEM_COLUMNS)
+    if indexes is not None and len(indexes):
+        subs = price_bridge.breakdown_code(indexes["item"], b.headline).notna()
+        values = indexes[(indexes["item"].eq(b.headline) | subs) & indexes["price_basis"].eq("index")]
+        weights = indexes[subs & indexes["price_basis"].eq(price_bridge.WEIGHT_BASIS)]
+        if len(weights):
+            cols = ["economy", "item", "price_basis", "frequency", "year", "quarter", "month", "value"]
+            means = index_levels(values[cols], tuple(pd.unique(values["item"])), label=b.headline)
+            bridge, items = price_bridge.price_bridge(
+                means, weights[["economy", "item", "year", "value"]], levels, headline=b.headline,
+                accounts=b.accounts, pairs=config.price_bridge.pair_tuples())
+    for name, rows in (("bridge_rows", bridge), ("bridge_item_rows", items)):
+        db.register(con, name, rows.astype({"year": "int64", "quarter": "int64"}))
+    db.run_sql(con, "int_price_bridge")
+    db.run_sql(con, "int_price_bridge_items")
+    con.unregister("bridge_rows")
+    con.unregister("bridge_item_rows")

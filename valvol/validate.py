@@ -233,8 +233,13 @@ def validate_rows(rows: pd.DataFrame, config: Config, accounts_dir: Path,
     dated = rows[rows["frequency"] != ""]  # every row with a valid period counts for contiguity
     problems += period_gaps(dated[~pd.Series(key_codes(dated, ["economy", "item", "price_basis", "period"]))
                                    .duplicated().to_numpy()])
-    is_index = ok["price_basis"].eq("index")
+    is_index = ok["price_basis"].isin(["index", "weight"])
     indexes, ok = ok[is_index], ok[~is_index]
+    from valvol.methods.price_bridge import input_problems as bridge_problems
+
+    b = config.price_bridge
+    problems += bridge_problems(indexes, ok, headline=b.headline, accounts_item=b.accounts,
+                                tolerance_abs=config.checks.tolerance_abs, tolerance_rel=config.checks.tolerance_rel)
     for economy in sorted(set(pd.unique(indexes["economy"])) - set(pd.unique(ok["economy"]))):
         first = indexes[indexes["economy"] == economy].iloc[0]
         problems.append(Problem(file=first["source_file"], row=int(first["source_row"]), economy=economy,

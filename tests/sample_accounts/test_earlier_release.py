@@ -49,12 +49,15 @@ def test_main_regenerates_both_files_identically(gen, tmp_path):
     assert written == [
         "accounts.csv",
         "cpi.csv",
+        "cpi_coicop.csv",
         "earlier_release/accounts.csv",
         "earlier_release/cpi.csv",
         "first_estimate/accounts.csv",
         "first_estimate/annual/benchmarks.csv",
+        "household_coicop.csv",
     ]
-    for committed_file in [ACCOUNTS, CPI, EARLIER, EARLIER_CPI, FLASH_ACCOUNTS, FLASH_BENCHMARKS]:
+    for committed_file in [ACCOUNTS, CPI, EARLIER, EARLIER_CPI, FLASH_ACCOUNTS, FLASH_BENCHMARKS,
+                           FOLDER / "household_coicop.csv", FOLDER / "cpi_coicop.csv"]:
         fresh = tmp_path / committed_file.relative_to(FOLDER)
         assert fresh.read_bytes() == committed_file.read_bytes(), committed_file.name
 

@@ -47,15 +47,16 @@ def test_import_has_no_side_effects():
 
 def test_folder_holds_the_accounts_and_the_cpi():
     # The accounts reader takes every .csv and .parquet file of the folder as accounts: the accounts
-    # and the CPI (its rows have price basis ``index``) and nothing else.
+    # and the CPI (its rows have price basis ``index``), household consumption by purpose and the
+    # CPI's sub-indexes with their basket weights (price basis ``weight``), and nothing else.
     files = sorted(p.name for p in FOLDER.iterdir() if p.suffix in {".csv", ".parquet"})
-    assert files == ["accounts.csv", "cpi.csv"]
+    assert files == ["accounts.csv", "cpi.csv", "cpi_coicop.csv", "household_coicop.csv"]
     assert [p.name for p in account_files(FOLDER)] == files
 
 
 def test_config_matches_the_generator(gen):
     raw = tomllib.loads((FOLDER / "valvol.toml").read_text(encoding="utf-8"))
-    assert set(raw) == {"reference_year", "levels_at_annual_rate", "aggregates"}
+    assert set(raw) == {"reference_year", "levels_at_annual_rate", "aggregates", "price_bridge"}
     assert raw["reference_year"] == gen.REFERENCE_YEAR == 2020
     assert raw["levels_at_annual_rate"] is False
     parsed = {

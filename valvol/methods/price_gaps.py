@@ -395,46 +395,57 @@ def _cpi(cpi: pd.DataFrame, household: pd.DataFrame) -> pd.DataFrame:
 
 def _cpi_levels(cpi: pd.DataFrame) -> pd.DataFrame:
     """Quarterly (mean of three months) and annual (mean of four quarters) CPI levels."""
+    return index_levels(cpi, ("CPI",), label="CPI").drop(columns="item")
+
+
+def index_levels(frame: pd.DataFrame, items: tuple[str, ...], *, label: str) -> pd.DataFrame:
+    """Quarterly (mean of three months) and annual (mean of four quarters) levels of price indexes.
+
+    ``frame``: rows of the price indexes ``items`` (columns as the ``cpi`` argument of
+    `price_gaps`); ``label`` names them in problems. Returns columns economy, item,
+    frequency, year, quarter (0 for years), value. One frequency per economy and item.
+    """
     need = ["economy", "item", "price_basis", "frequency", "year", "value"]
-    missing = [c for c in need if c not in cpi.columns]
+    missing = [c for c in need if c not in frame.columns]
     if missing:
-        raise InputError([Problem(file="cpi", reason=f"CPI frame lacks column(s) {', '.join(missing)}")])
-    df = cpi.reset_index(drop=True)
+        raise InputError([Problem(file="cpi", reason=f"{label} frame lacks column(s) {', '.join(missing)}")])
+    df = frame.reset_index(drop=True)
     freq = df["frequency"].astype(str)
     sub = pd.to_numeric(df["month"] if "month" in df else pd.Series(np.nan, index=df.index), errors="coerce")
     quarter = pd.to_numeric(df["quarter"] if "quarter" in df else pd.Series(np.nan, index=df.index),
                             errors="coerce")
     value = pd.to_numeric(df["value"], errors="coerce")
     checks = {
-        "item is not CPI": df["item"].ne("CPI"),
+        f"item is not {label}": ~df["item"].isin(items),
         "price_basis is not index": df["price_basis"].ne("index"),
         "frequency is neither M nor Q": ~freq.isin(["M", "Q"]),
         "monthly row without a month 1..12": freq.eq("M") & ~sub.isin(range(1, 13)),
         "quarterly row without a quarter 1..4": freq.eq("Q") & ~quarter.isin(range(1, 5)),
         "value missing, zero or negative": ~(value > 0),
     }
-    problems = [Problem(file="cpi", row=int(i), economy=str(df.at[i, "economy"]), item="CPI",
+    problems = [Problem(file="cpi", row=int(i), economy=str(df.at[i, "economy"]), item=str(df.at[i, "item"]),
                         period=str(df.at[i, "year"]), reason=reason)
                 for reason, bad in checks.items() for i in df.index[bad.to_numpy()]]
     df = df.assign(frequency=freq, year=df["year"].astype("int64"), value=value,
                    quarter=np.where(freq.eq("M"), (sub - 1) // 3 + 1, quarter), sub=np.where(freq.eq("M"), sub, 0))
     if not problems:
-        dup = df.duplicated(["economy", "year", "quarter", "sub"], keep="first")
-        problems += [Problem(file="cpi", row=int(i), economy=str(df.at[i, "economy"]), item="CPI",
+        dup = df.duplicated(["economy", "item", "year", "quarter", "sub"], keep="first")
+        problems += [Problem(file="cpi", row=int(i), economy=str(df.at[i, "economy"]), item=str(df.at[i, "item"]),
                              period=str(df.at[i, "year"]), reason="value given more than once") for i in df.index[dup]]
-        both = df.groupby("economy")["frequency"].nunique()
-        problems += [Problem(file="cpi", economy=str(e), item="CPI", reason="monthly and quarterly rows mixed")
-                     for e in both.index[both > 1]]
+        both = df.groupby(["economy", "item"])["frequency"].nunique()
+        problems += [Problem(file="cpi", economy=str(e), item=str(i), reason="monthly and quarterly rows mixed")
+                     for e, i in both.index[both > 1]]
     if problems:
         raise InputError(problems)
     df["quarter"] = df["quarter"].astype("int64")
-    g = df.groupby(["economy", "year", "quarter"])["value"]
-    months = df.groupby(["economy", "year", "quarter"])["frequency"].first().eq("M")
+    key = ["economy", "item", "year", "quarter"]
+    g = df.groupby(key)["value"]
+    months = df.groupby(key)["frequency"].first().eq("M")
     q = pd.DataFrame({"value": g.mean(), "n": g.size(), "monthly": months}).reset_index()
     q = q.loc[q["n"].eq(np.where(q["monthly"], 3, 1))].assign(frequency="Q")
-    a = q.groupby(["economy", "year"])["value"].agg(["mean", "size"]).reset_index()
+    a = q.groupby(["economy", "item", "year"])["value"].agg(["mean", "size"]).reset_index()
     a = a.loc[a["size"].eq(4)].rename(columns={"mean": "value"}).assign(frequency="A", quarter=0)
-    cols = ["economy", "frequency", "year", "quarter", "value"]
+    cols = ["economy", "item", "frequency", "year", "quarter", "value"]
     out = pd.concat([q[cols], a[cols]], ignore_index=True)
     out["quarter"] = out["quarter"].astype("int64")
     return out

@@ -15,6 +15,7 @@ measure                                         from
                                                 horizon in prev_period / prev_year (percent)
 ``contribution_volume_<aggregate>_<horizon>``   ``volume_contributions.contribution_pp``
 ``contribution_deflator_<aggregate>_<horizon>`` ``deflator_contributions.contribution_pp``
+``bridge_<order>_<horizon>`` (item: the effect)   ``price_bridge.value_pp``
 ==============================================  ===============================================
 
 The contributing component is the ``item``; the aggregate (an SDMX code, which may itself
@@ -49,6 +50,7 @@ _SOURCES = {  # table -> (columns it must have, value column)
                               "contribution_pp"], "contribution_pp"),
     "deflator_contributions": (["economy", "period", "frequency", "aggregate", "item", "horizon",
                                 "contribution_pp"], "contribution_pp"),
+    "price_bridge": (["economy", "period", "frequency", "horizon", "order", "effect", "value_pp"], "value_pp"),
 }
 
 
@@ -67,7 +69,7 @@ def long_measures(tables: Mapping[str, pd.DataFrame], *, vintage: str = "") -> p
         A table lacks columns, or gives the same series and period twice.
     """
     parts = []
-    for name, (cols, value) in _SOURCES.items():  # over the five table kinds, not over series
+    for name, (cols, value) in _SOURCES.items():  # over the six table kinds, not over series
         t = tables.get(name)
         if t is None:
             continue
@@ -79,13 +81,16 @@ def long_measures(tables: Mapping[str, pd.DataFrame], *, vintage: str = "") -> p
             label = "level_" + t["price_basis"].astype(str)
         elif name == "deflators":
             label = pd.Series("deflator", index=t.index)
+        elif name == "price_bridge":  # the effect is the item: bridge_<order>_<horizon>
+            label = "bridge_" + t["order"].astype(str) + "_" + t["horizon"].astype(str)
         elif name == "growth":
             label = "growth_" + t["measure"].astype(str) + "_" + t["horizon"].astype(str)
         else:
             kind = "volume" if name == "volume_contributions" else "deflator"
             label = f"contribution_{kind}_" + t["aggregate"].astype(str) + "_" + t["horizon"].astype(str)
+        item = t["effect"] if name == "price_bridge" else t["item"]
         part = pd.DataFrame({"economy": t["economy"].astype(str), "period": t["period"].astype(str),
-                             "frequency": t["frequency"].astype(str), "item": t["item"].astype(str),
+                             "frequency": t["frequency"].astype(str), "item": item.astype(str),
                              "measure": label.astype(str), "value": t[value].astype("float64"),
                              "table": name})
         parts.append(part)
