@@ -1,0 +1,1 @@
+"""The modules of the Quillon demo generator (run ``sample_accounts/generate.py``)."""
