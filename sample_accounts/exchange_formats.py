@@ -120,8 +120,6 @@ def main(folder: Path = FOLDER) -> None:
     for sub in ("sdmx", "wide", "wide_csv"):
         (folder / sub).mkdir(exist_ok=True)
         shutil.copyfile(FOLDER / "valvol.toml", folder / sub / "valvol.toml")
-        for name in ("household_coicop.csv", "cpi_coicop.csv"):  # the purposes stay in long form
-            shutil.copyfile(FOLDER / name, folder / sub / name)
     to_sdmx(accounts).to_csv(folder / "sdmx" / "accounts.csv", index=False, lineterminator="\n")
     shutil.copyfile(FOLDER / "cpi.csv", folder / "sdmx" / "cpi.csv")
     write_workbook(accounts, cpi, folder / "wide" / "accounts.xlsx")

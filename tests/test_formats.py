@@ -16,6 +16,8 @@ from valvol import pipeline
 from valvol.cli import main
 
 FOLDER = Path(__file__).resolve().parents[1] / "sample_accounts"
+#: The files `sample_accounts/exchange_formats.py` writes the exchange-format folders from.
+SOURCES = ("accounts.csv", "cpi.csv", "valvol.toml")
 FORMATS = ("sdmx", "wide", "wide_csv")
 
 
@@ -29,8 +31,13 @@ def _rebuild(accounts: Path, out: Path) -> Path:
 
 @pytest.fixture(scope="module")
 def long_form(tmp_path_factory) -> Path:
-    out = tmp_path_factory.mktemp("long") / "out"
-    _rebuild(FOLDER, out)
+    """A rebuild of the long-form files the exchange-format folders are written from."""
+    base = tmp_path_factory.mktemp("long")
+    (base / "acc").mkdir()
+    for name in SOURCES:
+        shutil.copyfile(FOLDER / name, base / "acc" / name)
+    out = base / "out"
+    _rebuild(base / "acc", out)
     return out
 
 
@@ -68,7 +75,7 @@ def test_levels_export_and_back(long_form, tmp_path, capsys):
     assert "wrote 1 table(s) as sdmx-csv" in capsys.readouterr().out
     head = (to / "levels.csv").read_text().splitlines()[0]
     assert head == "STRUCTURE,STRUCTURE_ID,ACTION,FREQ,REF_AREA,STO,REF_SECTOR,PRICES,TIME_PERIOD,OBS_VALUE,VALVOL_DERIVED"
-    for name in ("valvol.toml", "cpi.csv", "cpi_coicop.csv"):  # price indexes are not in levels
+    for name in ("valvol.toml", "cpi.csv"):  # the price index is not in levels
         shutil.copyfile(FOLDER / name, to / name)
     again = _rebuild(to, tmp_path / "out")
     assert _tables(again) == _tables(long_form / "latest")

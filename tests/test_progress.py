@@ -30,11 +30,11 @@ def test_every_stage_is_reported_with_its_counts(demo_dir, tmp_path):
     names = [s.name for s in pipeline.STAGES]
     assert [e[1] for e in rec.events if e[0] == "start"] == names
     facts = {e[1]: e[4] for e in rec.events if e[0] == "end"}
-    assert facts["load"] == "2,184 rows read"
-    assert facts["validate"] == "1 economy, 2,016 rows valid"
+    assert facts["load"] == "6,300 rows read"
+    assert facts["validate"] == "1 economy, 3,584 rows valid"
     assert facts["derive"] == "1 economy in 1 chunk(s)"
-    assert facts["check"].startswith("1,543 pass, 2 warn, 0 fail")
-    assert facts["write"].startswith("9 tables, ") and facts["publish"].startswith("vintage ")
+    assert facts["check"].startswith("2,307 pass, 8 warn, 0 fail")
+    assert facts["write"].startswith("11 tables, ") and facts["publish"].startswith("vintage ")
     assert all(e[3] == len(names) and e[-1] == 0 for e in rec.events if e[0] == "end")
 
 
@@ -55,9 +55,9 @@ def test_plain_lines_when_not_a_terminal_and_a_closing_summary(demo_dir, tmp_pat
     captured = capsys.readouterr()
     lines = [line for line in captured.err.splitlines() if line.startswith("valvol: [")]
     assert [line.split()[2] for line in lines] == [s.name for s in pipeline.STAGES]
-    assert lines[1].endswith("1 economy, 2,016 rows valid")
-    assert "validate: 2184 rows valid" not in captured.err  # the detailed lines only with -v
-    assert f"checks to review: deflator_jump 2 (warn); rows in {out / 'checks.parquet'} (columns rule, status)" \
+    assert lines[1].endswith("1 economy, 3,584 rows valid")
+    assert "validate: 6300 rows valid" not in captured.err  # the detailed lines only with -v
+    assert f"checks to review: deflator_jump 8 (warn); rows in {out / 'checks.parquet'} (columns rule, status)" \
         in captured.out
     assert f"release report: {out / 'report.html'}" in captured.out
 
@@ -65,11 +65,11 @@ def test_plain_lines_when_not_a_terminal_and_a_closing_summary(demo_dir, tmp_pat
 def test_quiet_prints_no_progress_and_verbose_the_details(demo_dir, tmp_path, capsys):
     assert main(["-q", "rebuild", str(demo_dir), "--out", str(tmp_path / "q"), "--no-flow", "--no-charts"]) == 0
     quiet = capsys.readouterr()
-    assert "valvol: [" not in quiet.err and "checks to review: deflator_jump 2" in quiet.out
+    assert "valvol: [" not in quiet.err and "checks to review: deflator_jump 8" in quiet.out
     assert main(["-v", "rebuild", str(demo_dir), "--out", str(tmp_path / "v"), "--no-flow", "--no-charts",
                  "--no-report"]) == 0
     verbose = capsys.readouterr()
-    assert "valvol: [2/7] validate" in verbose.err and "valvol: validate: 2184 rows valid" in verbose.err
+    assert "valvol: [2/7] validate" in verbose.err and "valvol: validate: 6300 rows valid" in verbose.err
     assert "release report" not in verbose.out
 
 

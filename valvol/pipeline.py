@@ -709,12 +709,12 @@ def flagged_checks(vintage: Path) -> dict[tuple[str, str], int]:
 
 def _revisions_against_latest(out_dir: Path | None, work: Path) -> tuple[str | None, dict[str, pa.Table]]:
     """Revisions of the tables written in ``work`` against the latest published vintage, and its name."""
-    from valvol.methods.revision_statistics import revision_summary
-    from valvol.methods.revisions import revisions
-
     latest = out_dir / pub.LATEST if out_dir is not None else None
     if latest is None or not (latest / MANIFEST_FILE).exists():
         return None, {}
+    from valvol.methods.revision_statistics import revision_summary  # scipy.stats: only when compared
+    from valvol.methods.revisions import revisions
+
     names = [t for t in TABLES if (latest / f"{t}.parquet").exists()]
     earlier = {t: pd.read_parquet(latest / f"{t}.parquet") for t in names}
     revs = revisions(earlier, {t: pd.read_parquet(work / f"{t}.parquet") for t in names})

@@ -61,11 +61,12 @@ def test_demo_report_renders_the_release(browser, demo_out, tmp_path_factory):
     assert head.split("\t")[:2] == ["XQ", "2025-Q4"] and "%" in head
     assert page.locator("#contributions table").count() == 2
     assert "imports" in page.inner_text("#contributions") and "terms of trade" in page.inner_text("#price-gaps")
-    assert "deflator_jump" in page.inner_text("#checks") and page.locator("#checks tr.warn").count() == 3
+    # the rule, then its 8 rows
+    assert "deflator_jump" in page.inner_text("#checks") and page.locator("#checks tr.warn").count() == 9
     assert "revised against vintage" in text and page.locator("#revisions tbody tr").count() > 5
     charts = page.locator("#charts svg")
-    assert charts.count() == 3
-    for i in range(3):
+    assert charts.count() == 4  # deflator contributions, deflator gap, terms of trade, price bridge
+    for i in range(4):
         box = charts.nth(i).bounding_box()
         assert box["width"] > 500 and box["height"] > 200
     assert seen == {"errors": [], "requests": []}

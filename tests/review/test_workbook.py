@@ -91,13 +91,13 @@ def test_demo_workbook_is_a_readable_release(demo_out):
     gaps = {r[3].value: r[5].number_format for r in wb["price_gaps"].iter_rows(min_row=2)}
     assert gaps["gap_household_vs_gdp"] == PP and gaps["terms_of_trade"] == "0.000"
     warned = [r for r in wb["checks"].iter_rows(min_row=2) if r[6].value == "warn"]
-    assert len(warned) == 2 and all(c.fill.fgColor.rgb == "FFFFE699" for c in warned[0])
+    assert len(warned) == 8 and all(c.fill.fgColor.rgb == "FFFFE699" for c in warned[0])
     assert wb["checks"]["A2"].fill.fgColor.rgb != "FFFFE699"
     rules = [rule.operator for cf in wb["revisions"].conditional_formatting for rule in cf.rules]
     assert sorted(rules) == ["greaterThan", "lessThan"]
     contents = list(wb["contents"].iter_rows(values_only=True))
-    assert ("deflator_jump", "warn", 2, "XQ", None) in contents
-    assert len(wb["charts"]._images) == 3
+    assert ("deflator_jump", "warn", 8, "XQ", None) in contents
+    assert len(wb["charts"]._images) == 4
 
 
 def test_workbook_command(demo_out, tmp_path, capsys):
