@@ -13,11 +13,9 @@ from datetime import datetime
 
 import pytest
 from openpyxl import Workbook
-from test_bad_inputs import Case, _folder, _said, baseline, snapshot  # noqa: F401 - the shared fixture
+from test_bad_inputs import Case, assert_refused, baseline  # noqa: F401 - the shared fixture
 
-from valvol import pipeline
-from valvol.cli import main
-from valvol.errors import ConfigError, InputError
+from valvol.errors import ConfigError
 
 SDMX_HEAD = "DATAFLOW,FREQ,ADJUSTMENT,REF_AREA,REF_SECTOR,STO,ACTIVITY,PRICES,TIME_PERIOD,OBS_VALUE,OBS_STATUS\n"
 
@@ -154,19 +152,4 @@ def test_the_catalogue_covers_every_format():
 
 @pytest.mark.parametrize("name", list(CASES))
 def test_bad_format(name, baseline, tmp_path, capsys):  # noqa: F811 - the shared fixture
-    case = CASES[name]
-    _, out, before = baseline
-    folder = _folder(tmp_path, case)
-    work = tmp_path / "work"
-    work.mkdir()
-    with pytest.raises(case.error) as err:  # the package function
-        pipeline.check(folder, work)
-    _said(str(err.value), case.says)
-    if isinstance(err.value, InputError):
-        assert all(p.file for p in err.value.problems), "every problem names its file"
-    capsys.readouterr()
-    assert main(["-q", "check", str(folder)]) == 2
-    _said(capsys.readouterr().err, case.says)
-    assert main(["-q", "rebuild", str(folder), "--out", str(out), "--no-flow", "--no-charts"]) == 2
-    _said(capsys.readouterr().err, case.says)
-    assert snapshot(out) == before, "the earlier outputs changed"
+    assert_refused(CASES[name], baseline, tmp_path, capsys)

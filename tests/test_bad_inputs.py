@@ -307,9 +307,9 @@ def test_the_catalogue_is_large_enough():
     assert len(CASES) + len(FOLDER_CASES) + len(OPTION_CASES) >= 40
 
 
-@pytest.mark.parametrize("name", list(CASES))
-def test_bad_accounts(name, baseline, tmp_path, capsys):
-    case = CASES[name]
+def assert_refused(case: Case, baseline, tmp_path, capsys) -> None:
+    """The package function, ``check`` and ``rebuild`` all refuse ``case`` with its located message
+    (exit 2, no traceback), and the earlier outputs stay byte-identical."""
     _, out, before = baseline
     folder = _folder(tmp_path, case)
     work = tmp_path / "work"
@@ -325,6 +325,11 @@ def test_bad_accounts(name, baseline, tmp_path, capsys):
     assert main(["-q", "rebuild", str(folder), "--out", str(out), "--no-flow", "--no-charts"]) == 2
     _said(capsys.readouterr().err, case.says)
     assert snapshot(out) == before, "the earlier outputs changed"
+
+
+@pytest.mark.parametrize("name", list(CASES))
+def test_bad_accounts(name, baseline, tmp_path, capsys):
+    assert_refused(CASES[name], baseline, tmp_path, capsys)
 
 
 def test_unknown_columns_are_dropped_with_a_warning(tmp_path, capsys):
